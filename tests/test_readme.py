@@ -39,14 +39,21 @@ def test_ci_runs_the_readme_test_command():
 
 @pytest.mark.parametrize("command", _console_commands() + [
     re.search(r"\.venv/bin/(drainplan .*)$", _setup_commands()[0]).group(1)])
-def test_readme_command_runs(run, command):
+def test_readme_command_runs(run, command, tmp_path, monkeypatch):
+    # run from a scratch folder holding a link to the demo data, as a user would in a clone
+    (tmp_path / "demo_fields").symlink_to(ROOT / "demo_fields")
+    monkeypatch.chdir(tmp_path)
     args = shlex.split(command)[1:]
     r = run(*args)
     assert r.exit_code == 0, r.output
-    if "--json" in args:
-        assert json.loads(r.stdout)["spacing_m"] > 0
-    else:
-        assert "drain spacing" in r.stdout
+    if args[0] == "spacing":
+        if "--json" in args:
+            assert json.loads(r.stdout)["spacing_m"] > 0
+        else:
+            assert "drain spacing" in r.stdout
+    for i, a in enumerate(args):
+        if a in ("-o", "--plot"):
+            assert (tmp_path / args[i + 1]).stat().st_size > 0
 
 
 def test_readme_python_example():

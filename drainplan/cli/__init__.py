@@ -90,9 +90,11 @@ def cli(ctx, verbose, quiet):
 
 
 def _register():
+    from .layout import layout
     from .spacing import spacing
 
     cli.add_command(spacing)
+    cli.add_command(layout)
 
 
 _register()

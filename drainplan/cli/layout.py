@@ -1,0 +1,211 @@
+"""``drainplan layout``: laterals and collector mains over field boundaries."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import click
+
+from ..errors import InputError
+from .options import LENGTH, json_option
+
+
+def _parse_direction(value):
+    if value is None or str(value).strip().lower() == "auto":
+        return "auto"
+    try:
+        b = float(str(value).replace("deg", "").strip())
+    except ValueError:
+        raise click.BadParameter("expected a bearing in degrees clockwise from north "
+                                 "(e.g. 35) or 'auto'", param_hint="'--direction'") from None
+    if not -360 <= b <= 360:
+        raise click.BadParameter("a bearing must lie between -360 and 360 degrees",
+                                 param_hint="'--direction'")
+    return b
+
+
+def _parse_outlet(value):
+    """'X,Y' in the fields file's CRS, or a file holding one point."""
+    if value is None:
+        return None
+    parts = str(value).split(",")
+    if len(parts) == 2:
+        try:
+            return (float(parts[0]), float(parts[1]))
+        except ValueError:
+            pass
+    path = Path(value)
+    if path.exists():
+        from ..gisio import read_layer
+
+        gdf, _ = read_layer(path, what="outlet", option="outlet")
+        pts = [g for g in gdf.geometry if g is not None and g.geom_type == "Point"]
+        if not pts:
+            raise InputError(f"outlet file {value} holds no point", param="outlet")
+        return None if not pts else ("file", path, pts[0])
+    raise click.BadParameter("expected X,Y in the fields file's coordinates or a file with "
+                             "one point", param_hint="'--outlet'")
+
+
+@click.command(short_help="Lay out laterals and mains over field boundaries.")
+@click.argument("fields", type=click.Path(dir_okay=False))
+@click.option("--spacing", type=LENGTH, required=True, help="Lateral spacing, e.g. '18 m'.")
+@click.option("--direction", default="auto", show_default=True,
+              help="Bearing of the laterals in degrees clockwise from north, or 'auto' "
+                   "(long axis of each field).")
+@click.option("--setback", type=LENGTH, default="0", show_default=True,
+              help="Headland setback of laterals from the field boundary.")
+@click.option("-o", "--output", type=click.Path(dir_okay=False), required=True,
+              help="GeoPackage to write (.gpkg).")
+@click.option("--layer", help="Layer of the fields file (GeoPackage with several layers).")
+@click.option("--id-field", help="Attribute holding each field's id (default: field_id, id "
+                                 "or name if present).")
+@click.option("--crs", help="CRS of input files that carry none, e.g. EPSG:4326.")
+@click.option("--work-crs", help="Metric projected CRS for the layout (default: the file's "
+                                 "own if metric, else the local UTM zone).")
+@click.option("--keep-metric-crs", is_flag=True,
+              help="Write outputs in the working metric CRS instead of the input CRS.")
+@click.option("--exclude", "exclude_path", type=click.Path(dir_okay=False),
+              help="Layer of exclusions (wells, ponds, buildings, hedges...).")
+@click.option("--exclude-layer", help="Layer of the exclusions file.")
+@click.option("--exclude-setback", type=LENGTH, default="15 m", show_default=True,
+              help="Setback around exclusions without a 'setback_m' attribute.")
+@click.option("--min-length", type=LENGTH, default="10 m", show_default=True,
+              help="Drop lateral pieces shorter than this (they are counted).")
+@click.option("--offset", type=LENGTH,
+              help="Distance of the first lateral from the edge (default: balanced strips).")
+@click.option("--main-side", default="auto", show_default=True,
+              type=click.Choice(["auto", "N", "NE", "E", "SE", "S", "SW", "W", "NW"]),
+              help="End of the laterals where the collector main runs.")
+@click.option("--main", "main_path", type=click.Path(dir_okay=False),
+              help="A line layer drawn by the user to use as the main.")
+@click.option("--outlet", help="Outlet point: X,Y in the fields file's coordinates, or a "
+                               "point file.")
+@click.option("--cross-setbacks/--no-cross-setbacks", default=True, show_default=True,
+              help="Allow non-perforated connectors through exclusion setback zones.")
+@click.option("--repair", is_flag=True, help="Repair invalid field boundaries instead of "
+                                             "refusing them.")
+@click.option("--plot", "plot_path", type=click.Path(dir_okay=False),
+              help="Also write a PNG plan.")
+@click.option("--geojson-dir", type=click.Path(file_okay=False),
+              help="Also write each layer as GeoJSON (lon/lat) into this folder.")
+@click.option("--overwrite", is_flag=True, help="Replace existing output files.")
+@json_option
+def layout(fields, spacing, direction, setback, output, layer, id_field, crs, work_crs,
+           keep_metric_crs, exclude_path, exclude_layer, exclude_setback, min_length, offset,
+           main_side, main_path, outlet, cross_setbacks, repair, plot_path, geojson_dir,
+           overwrite, as_json):
+    """Lay out parallel laterals and a collector main over the field boundaries in
+    FIELDS (GeoJSON, GeoPackage, Shapefile or zipped Shapefile, FlatGeobuf).
+
+    Example:
+
+        drainplan layout demo_fields/fields.geojson --spacing "18 m"
+        --direction auto --setback "6 m" --exclude demo_fields/exclusions.geojson
+        -o layout.gpkg
+    """
+    from ..geometry.layout import LayoutOptions
+    from ..layout_plan import LayoutInputs, plan_layout
+
+    out = Path(output)
+    if out.suffix.lower() != ".gpkg":
+        raise InputError("output must be a GeoPackage file ending in .gpkg", param="output")
+    targets = [out] + ([Path(plot_path)] if plot_path else [])
+    for t in targets:
+        if t.exists() and not overwrite:
+            raise InputError(f"{t} exists; use --overwrite to replace it", param="output")
+    if offset is not None and not 0 <= offset < spacing:
+        raise InputError("offset must be 0 or more and less than the spacing", param="offset")
+    outlet_value = _parse_outlet(outlet)
+    if isinstance(outlet_value, tuple) and outlet_value and outlet_value[0] == "file":
+        outlet_value = _outlet_in_fields_crs(outlet_value, fields, layer, crs)
+    opts = LayoutOptions(spacing=spacing, direction=_parse_direction(direction),
+                         setback=setback, min_length=min_length, offset=offset,
+                         main_side=main_side, cross_setbacks=cross_setbacks)
+    plan = plan_layout(LayoutInputs(
+        fields_path=fields, options=opts, layer=layer, id_field=id_field, crs=crs,
+        work_crs=work_crs, keep_metric_crs=keep_metric_crs, exclude_path=exclude_path,
+        exclude_layer=exclude_layer, exclude_setback=exclude_setback, outlet=outlet_value,
+        main_path=main_path, repair=repair))
+    write_layout(plan, out, plot_path=plot_path, geojson_dir=geojson_dir, overwrite=overwrite)
+    for line in plan.reports:
+        click.echo(f"drainplan: note: {line}", err=True)
+    if as_json:
+        click.echo(json.dumps(layout_summary(plan, out), indent=2))
+    else:
+        click.echo(_text(plan, out, plot_path))
+
+
+def _outlet_in_fields_crs(value, fields, layer, crs):
+    """Reproject a point from an outlet file into the fields file's CRS."""
+    import geopandas as gpd
+
+    from ..gisio import read_layer
+
+    _, path, _pt = value
+    pts, pcrs = read_layer(path, crs=crs, what="outlet", option="outlet")
+    _, fcrs = read_layer(fields, layer=layer, crs=crs, what="fields", option="fields")
+    g = gpd.GeoSeries([pts.geometry.iloc[0]], crs=pcrs).to_crs(fcrs).iloc[0]
+    return (g.x, g.y)
+
+
+def write_layout(plan, out, *, plot_path=None, geojson_dir=None, overwrite=False):
+    """Write the layers (GeoPackage), and optionally a PNG plan and GeoJSON files."""
+    from ..gisio import write_atomic, write_geojson, write_layers
+
+    write_layers(out, plan.layers, overwrite=overwrite)
+    if plot_path:
+        import matplotlib
+
+        matplotlib.use("Agg")
+        import matplotlib.pyplot as plt
+
+        from ..plots import plan_map, save_figure
+
+        metric = {k: v.to_crs(plan.work_crs) for k, v in plan.layers.items()}
+        fig, ax = plt.subplots(figsize=(8, 8))
+        plan_map(metric, ax=ax, title="Drainage layout")
+        write_atomic(plot_path, lambda tmp: save_figure(fig, tmp), overwrite=overwrite)
+        plt.close(fig)
+    if geojson_dir:
+        d = Path(geojson_dir)
+        d.mkdir(parents=True, exist_ok=True)
+        for name, gdf in plan.layers.items():
+            write_geojson(d / f"{name}.geojson", gdf, overwrite=overwrite)
+
+
+def layout_summary(plan, out=None):
+    """JSON-ready summary of a layout plan."""
+    return {
+        "output": str(out) if out else None,
+        "work_crs": plan.work_crs.to_string(),
+        "output_crs": plan.out_crs.to_string(),
+        "spacing_m": plan.layout.spacing,
+        "fields": plan.per_field,
+        "totals": plan.totals,
+        "notes": plan.notes,
+        "reports": plan.reports,
+    }
+
+
+def _text(plan, out, plot_path):
+    head = (f"{'field':<10} {'ha':>7} {'bearing':>8} {'laterals':>8} {'lateral m':>10} "
+            f"{'main m':>8} {'m/ha':>6} {'dropped':>7} {'no route':>8}")
+    lines = [f"Layout at {plan.layout.spacing:g} m spacing", head]
+    for r in plan.per_field:
+        lines.append(f"{r['field_id']:<10} {r['field_area_ha']:>7.2f} {r['bearing_deg']:>8.1f} "
+                     f"{r['laterals']:>8d} {r['lateral_length_m']:>10.0f} "
+                     f"{r['main_length_m']:>8.0f} {r['drain_density_m_per_ha']:>6.0f} "
+                     f"{r['dropped_pieces']:>7d} {r['unconnected_pieces']:>8d}")
+    t = plan.totals
+    lines.append(f"{'total':<10} {t['field_area_ha']:>7.2f} {'':>8} {t['laterals']:>8d} "
+                 f"{t['lateral_length_m']:>10.0f} {t['main_length_m']:>8.0f} "
+                 f"{t['drain_density_m_per_ha']:>6.0f} {t['dropped_pieces']:>7d} "
+                 f"{t['unconnected_pieces']:>8d}")
+    lines.append(f"connectors (non-perforated): {t['connector_length_m']:.0f} m")
+    lines.append(f"written: {out}" + (f", {plot_path}" if plot_path else ""))
+    lines += ["Notes"] + [f"  - {n}" for n in plan.notes]
+    lines.append("  - Locate buried utilities before trenching and check setbacks (wells, "
+                  "septic systems, wetlands) against local codes.")
+    return "\n".join(lines)

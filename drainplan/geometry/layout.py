@@ -1,0 +1,434 @@
+"""Lay out a drainage system over field polygons: laterals, collector mains,
+connectors, outlets and quantities.
+
+Input and output are shapely geometries in metres (a projected CRS chosen by
+the caller). The laterals come from the vectorised scan line in
+:mod:`drainplan.geometry.laterals`; each field gets a collector main along the
+edge at one end of its laterals (or along a line the user drew), and every
+lateral piece is joined to the main along its own line, through a short
+non-perforated connector where an exclusion zone or a bend of the boundary
+lies in between. Pieces that cannot reach the main without leaving the field
+or crossing an exclusion are reported, never silently kept or dropped.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+import shapely
+from shapely.ops import substring
+
+from ..errors import InputError
+from .fields import drainable_regions, long_axis_bearing
+from .laterals import LateralSet, edge_crossings, frame_axes, polygon_edges, scan_laterals
+
+__all__ = ["LayoutOptions", "Layout", "layout_fields", "COMPASS"]
+
+#: Compass names accepted for the main's side, as bearings in degrees.
+COMPASS = {"N": 0, "NE": 45, "E": 90, "SE": 135, "S": 180, "SW": 225, "W": 270, "NW": 315}
+
+_TOL = 1e-3  # m; ends closer than this touch
+
+
+@dataclass(frozen=True)
+class LayoutOptions:
+    """Options of :func:`layout_fields` (SI: metres, degrees).
+
+    Attributes
+    ----------
+    spacing : float
+        Lateral spacing [m].
+    direction : float or "auto"
+        Bearing of the laterals, degrees clockwise from grid north, or "auto"
+        for the long axis of each field's minimum rotated rectangle.
+    setback : float
+        Headland setback from the field boundary [m].
+    min_length : float
+        Lateral pieces shorter than this are dropped and counted [m].
+    offset : float or None
+        Distance of the first lateral from the edge of the drainable area
+        across the laterals [m]; None balances the strips at both sides.
+    main_side : str
+        "auto" (the end of the laterals nearest the outlet, or the lower-t end
+        without an outlet) or a compass direction (N, NE, ... NW).
+    cross_setbacks : bool
+        Let non-perforated connectors cross exclusion setback zones (never the
+        excluded feature itself).
+    """
+
+    spacing: float
+    direction: object = "auto"
+    setback: float = 0.0
+    min_length: float = 10.0
+    offset: float | None = None
+    main_side: str = "auto"
+    cross_setbacks: bool = True
+
+
+@dataclass
+class Layout:
+    """Result of :func:`layout_fields` (all geometries in the working CRS, metres).
+
+    Per-field arrays have one entry per input field; per-item arrays carry the
+    index of their field in ``*_field``.
+    """
+
+    bearing: np.ndarray
+    insets: np.ndarray
+    regions: np.ndarray
+    laterals: np.ndarray
+    lateral_field: np.ndarray
+    lateral_line: np.ndarray
+    lateral_side: np.ndarray
+    lateral_length: np.ndarray
+    junctions: np.ndarray
+    connectors: np.ndarray
+    connector_field: np.ndarray
+    mains: np.ndarray
+    outlets: np.ndarray
+    unconnected: np.ndarray
+    unconnected_field: np.ndarray
+    dropped_count: np.ndarray
+    dropped_length: np.ndarray
+    spacing: float
+    notes: list = field(default_factory=list)
+
+    def quantities(self, field_area):
+        """Per-field quantities (dict of arrays) and totals (dict of floats).
+
+        ``field_area`` is the area of each field [m2].
+        """
+        n = self.bearing.size
+        cnt = lambda idx, w=None: np.bincount(idx, weights=w, minlength=n)  # noqa: E731
+        lat_len = cnt(self.lateral_field, self.lateral_length)
+        runs = np.zeros(n)
+        if self.lateral_field.size:
+            key = np.unique(np.stack([self.lateral_field, self.lateral_line,
+                                      self.lateral_side], axis=1), axis=0)
+            runs = cnt(key[:, 0])
+        con_len = cnt(self.connector_field, shapely.length(self.connectors)
+                      if self.connectors.size else None)
+        unc_len = cnt(self.unconnected_field, shapely.length(self.unconnected)
+                      if self.unconnected.size else None)
+        main_len = np.array([shapely.length(m) if m is not None else 0.0 for m in self.mains])
+        area = np.asarray(field_area, float)
+        per = {
+            "laterals": runs.astype(int),
+            "lateral_length_m": lat_len,
+            "connector_length_m": con_len,
+            "main_length_m": main_len,
+            "field_area_ha": area / 1e4,
+            "drained_area_ha": np.minimum(lat_len * self.spacing, area) / 1e4,
+            "drain_density_m_per_ha": np.where(area > 0, lat_len / (area / 1e4), 0.0),
+            "dropped_pieces": self.dropped_count.astype(int),
+            "dropped_length_m": self.dropped_length,
+            "unconnected_pieces": cnt(self.unconnected_field).astype(int),
+            "unconnected_length_m": unc_len,
+        }
+        tot = {k: (int(v.sum()) if v.dtype.kind == "i" else float(v.sum()))
+               for k, v in per.items()}
+        tot["drain_density_m_per_ha"] = (tot["lateral_length_m"] / tot["field_area_ha"]
+                                         if tot["field_area_ha"] > 0 else 0.0)
+        return per, tot
+
+
+def _bearings(fields, direction):
+    if isinstance(direction, str):
+        if direction != "auto":
+            raise InputError(f"direction {direction!r}: give a bearing in degrees or 'auto'",
+                             param="direction")
+        return long_axis_bearing(fields)
+    b = float(direction)
+    if not np.isfinite(b):
+        raise InputError("direction must be a finite bearing in degrees", param="direction")
+    return np.full(len(fields), b % 180.0)
+
+
+def _main_chain(poly, u, v, low_side):
+    """The stretch of a polygon's outer ring that faces one end of the laterals.
+
+    Edges whose outward normal points within 60 degrees of the chosen end
+    (-u for the low side, +u for the high side) face it; the longest run of
+    consecutive facing edges is the edge along which the main runs. Returns a
+    LineString ordered by increasing s, or None.
+    """
+    parts = shapely.get_parts(poly)
+    parts = parts[shapely.get_type_id(parts) == 3]
+    if parts.size == 0:
+        return None
+    main_part = shapely.orient_polygons(parts[np.argmax(shapely.area(parts))])
+    ring = np.asarray(main_part.exterior.coords)   # counter-clockwise, closed
+    d = np.diff(ring, axis=0)
+    length = np.hypot(d[:, 0], d[:, 1])
+    normal = np.stack([d[:, 1], -d[:, 0]], axis=1)          # outward for CCW
+    toward = -u if low_side else u
+    facing = (normal @ toward) > 0.5 * length
+    if not np.any(facing):
+        return None
+    m = facing.size
+    if np.all(facing):
+        runs = [list(range(m))]
+    else:
+        start = int(np.flatnonzero(~facing)[0])              # begin after a gap
+        runs, cur = [], []
+        for j in range(1, m + 1):
+            e = (start + j) % m
+            if facing[e]:
+                cur.append(e)
+            elif cur:
+                runs.append(cur)
+                cur = []
+        if cur:
+            runs.append(cur)
+    best = max(runs, key=lambda r: length[r].sum())
+    coords = np.vstack([ring[best], ring[best[-1] + 1]])
+    if coords[0] @ v > coords[-1] @ v:
+        coords = coords[::-1]
+    return shapely.LineString(coords)
+
+
+def _side_is_low(bearing, side, field_geom, outlet):
+    """True when the main goes at the low-t end of the laterals (direction -u)."""
+    u, _ = frame_axes(bearing)
+    if side == "auto":
+        if outlet is None:
+            return True
+        c = np.asarray(shapely.centroid(field_geom).coords[0])
+        return float((np.asarray(outlet) - c) @ u) < 0
+    want = np.radians(COMPASS[side])
+    w = np.array([np.sin(want), np.cos(want)])
+    return float(w @ u) < 0
+
+
+def layout_fields(fields, options, *, exclusions=None, exclusion_setbacks=None,
+                  outlet=None, user_mains=None):
+    """Lay out laterals and collector mains over fields.
+
+    Parameters
+    ----------
+    fields : array_like of (Multi)Polygon or None
+        Checked field boundaries in metres (None entries are skipped).
+    options : LayoutOptions
+    exclusions : array_like of shapely geometries, optional
+    exclusion_setbacks : array_like, optional
+        Setback per exclusion [m].
+    outlet : tuple (x, y), optional
+        Outlet point in the same coordinates; the main drains towards it.
+    user_mains : array_like of LineString or None, optional
+        Per field, a main drawn by the user instead of the edge main.
+
+    Returns
+    -------
+    Layout
+
+    Raises
+    ------
+    InputError
+        For a spacing that is not positive, or larger than every field.
+    """
+    fields = np.asarray(fields, dtype=object)
+    n = fields.size
+    L = float(options.spacing)
+    if not (L > 0 and np.isfinite(L)):
+        raise InputError("spacing must be greater than 0 m", param="spacing")
+    if options.setback < 0:
+        raise InputError("setback must be 0 m or more", param="setback")
+    present = np.array([g is not None for g in fields], dtype=bool)
+    fields_filled = np.where(present, fields, shapely.Polygon())
+    bearing = _bearings(fields_filled, options.direction)
+    insets, regions, zones, features = drainable_regions(
+        fields_filled, options.setback, exclusions, exclusion_setbacks)
+    regions = np.where(present, regions, shapely.Polygon())
+    notes = []
+
+    # spacing larger than the field: no room for even one lateral
+    u_all, v_all = frame_axes(bearing)
+    a, b, owner = polygon_edges(fields_filled)
+    width = np.zeros(n)
+    if owner.size:
+        va = v_all[owner]
+        sa, sb = np.einsum("ij,ij->i", a, va), np.einsum("ij,ij->i", b, va)
+        lo, hi = np.full(n, np.inf), np.full(n, -np.inf)
+        np.minimum.at(lo, owner, np.minimum(sa, sb))
+        np.maximum.at(hi, owner, np.maximum(sa, sb))
+        width = np.where(np.isfinite(lo), hi - lo, 0.0)
+    too_narrow = present & (width < L)
+    if np.any(present) and np.all(too_narrow[present]):
+        raise InputError(f"spacing {L:g} m is larger than every field (widest across the "
+                         f"laterals: {width[present].max():.1f} m)", param="spacing")
+
+    pieces, grid = scan_laterals(regions, bearing, L, offset=options.offset, n_fields=n)
+    # drop short pieces
+    short = pieces.length < options.min_length
+    dropped_count = np.bincount(pieces.field[short], minlength=n)
+    dropped_length = np.bincount(pieces.field[short], weights=pieces.length[short],
+                                 minlength=n)
+    pieces = pieces.subset(~short)
+
+    # mains: along the edge at one end of the laterals, or the user's line
+    mains = np.full(n, None, dtype=object)
+    for f in np.flatnonzero(present):
+        if user_mains is not None and user_mains[f] is not None:
+            mains[f] = user_mains[f]
+        else:
+            low = _side_is_low(bearing[f], options.main_side, fields_filled[f], outlet)
+            mains[f] = _main_chain(insets[f], u_all[f], v_all[f], low)
+
+    conn = _connect(pieces, grid, mains, fields_filled, zones, features,
+                    options.cross_setbacks)
+    lat, side, t_main, connected, connectors, con_field = conn
+    unconnected = lat.subset(~connected)
+    lat = lat.subset(connected)
+    side = side[connected]
+    t_m = t_main[connected]
+
+    # junctions: one per lateral run (field, line, side)
+    junctions = np.empty(0, dtype=object)
+    if lat.field.size:
+        key, first = np.unique(np.stack([lat.field, lat.line, side], axis=1), axis=0,
+                               return_index=True)
+        jf = lat.field[first]
+        jp = lat.s[first][:, None] * v_all[jf] + t_m[first][:, None] * u_all[jf]
+        junctions = shapely.points(jp)
+        jfield = jf
+    else:
+        jfield = np.empty(0, int)
+
+    # trim each main to its junctions, orient it towards the outlet
+    outlets = np.full(n, None, dtype=object)
+    for f in range(n):
+        m = mains[f]
+        if m is None:
+            continue
+        js = junctions[jfield == f]
+        if js.size == 0:
+            mains[f] = None
+            continue
+        pos = shapely.line_locate_point(m, js)
+        m = substring(m, pos.min(), pos.max()) if pos.max() > pos.min() else None
+        if m is None or shapely.length(m) < _TOL:
+            mains[f] = None
+            outlets[f] = js[0]
+            continue
+        ends = np.asarray(m.coords)[[0, -1]]
+        if outlet is not None:
+            downstream = int(np.argmin(np.hypot(*(ends - np.asarray(outlet)).T)))
+        else:
+            downstream = 1
+        if downstream == 0:
+            m = shapely.reverse(m)
+        mains[f] = m
+        outlets[f] = shapely.Point(np.asarray(m.coords)[-1])
+    if np.any(connected == 0):
+        notes.append(f"{int((~connected).sum())} lateral piece(s) cannot reach the main "
+                     "without leaving the field or crossing an exclusion; they need a "
+                     "sub-main (layer 'unconnected')")
+    if connectors.size:
+        notes.append(f"{connectors.size} non-perforated connector(s) join lateral pieces "
+                     "to the main across exclusion zones or bends of the boundary")
+    return Layout(
+        bearing=bearing, insets=insets, regions=regions,
+        laterals=lat.geometries(), lateral_field=lat.field, lateral_line=lat.line,
+        lateral_side=side, lateral_length=lat.length, junctions=junctions,
+        connectors=connectors, connector_field=con_field, mains=mains, outlets=outlets,
+        unconnected=unconnected.geometries(), unconnected_field=unconnected.field,
+        dropped_count=dropped_count, dropped_length=dropped_length, spacing=L, notes=notes)
+
+
+def _connect(pieces, grid, mains, fields, zones, features, cross_setbacks):
+    """Join lateral pieces to the main along their lines.
+
+    Returns the (possibly split) pieces, their side of the main (-1, +1), the
+    main's t on their line, a connected flag, the connector geometries and
+    their field index.
+    """
+    n = fields.size
+    # crossing of every scan line with its field's main
+    a_list, b_list, o_list = [], [], []
+    for f, m in enumerate(mains):
+        if m is None:
+            continue
+        c = np.asarray(m.coords)
+        a_list.append(c[:-1])
+        b_list.append(c[1:])
+        o_list.append(np.full(len(c) - 1, f))
+    t_main_line = np.full(int(grid.n_lines.sum()), np.nan)
+    if a_list:
+        mf, mk, _, mt = edge_crossings(np.concatenate(a_list), np.concatenate(b_list),
+                                       np.concatenate(o_list), grid)
+        g = grid.line_base[mf] + mk
+        # several crossings on one line: keep the one nearest the field's lowest t
+        order = np.lexsort((mt, g))
+        g, mt = g[order], mt[order]
+        firsts = np.r_[True, g[1:] != g[:-1]]
+        t_main_line[g[firsts]] = mt[firsts]
+    gl = grid.line_base[pieces.field] + pieces.line if pieces.field.size else np.empty(0, int)
+    tm = t_main_line[gl] if pieces.field.size else np.empty(0)
+
+    # split pieces that the main crosses
+    inside = (pieces.t0 + _TOL < tm) & (tm < pieces.t1 - _TOL)
+    if np.any(inside):
+        lo_t1 = np.where(inside, tm, pieces.t1)
+        extra = pieces.subset(inside)
+        extra_t0 = tm[inside]
+        fields_idx = np.concatenate([pieces.field, extra.field])
+        t0 = np.concatenate([pieces.t0, extra_t0])
+        t1 = np.concatenate([lo_t1, extra.t1])
+        s = np.concatenate([pieces.s, extra.s])
+        line = np.concatenate([pieces.line, extra.line])
+        u, v = grid.u[fields_idx], grid.v[fields_idx]
+        pieces = LateralSet(fields_idx, line, s, t0, t1, s[:, None] * v + t0[:, None] * u,
+                            s[:, None] * v + t1[:, None] * u)
+        tm = np.concatenate([tm, extra_t0])
+        gl = grid.line_base[pieces.field] + pieces.line
+    m = pieces.field.size
+    if m == 0:
+        return pieces, np.empty(0, int), np.empty(0), np.zeros(0, bool), \
+            np.empty(0, dtype=object), np.empty(0, int)
+    has_main = np.isfinite(tm)
+    mid = 0.5 * (pieces.t0 + pieces.t1)
+    side = np.where(mid < np.where(has_main, tm, np.inf), -1, 1)
+    near = np.where(side < 0, pieces.t1, pieces.t0)     # end facing the main
+    far = np.where(side < 0, pieces.t0, pieces.t1)
+    dist = np.abs(near - np.where(has_main, tm, 0.0))
+    order = np.lexsort((dist, side, gl))
+    inv = np.empty(m, int)
+    inv[order] = np.arange(m)
+    gl_o, side_o = gl[order], side[order]
+    grp_start = np.r_[True, (gl_o[1:] != gl_o[:-1]) | (side_o[1:] != side_o[:-1])]
+    prev_far = np.r_[np.nan, far[order][:-1]]
+    from_t = np.where(grp_start, tm[order], prev_far)      # where the connector starts
+    to_t = near[order]
+    gap = np.abs(to_t - from_t)
+    need = has_main[order] & (gap > _TOL)
+    ok = has_main[order].copy()
+    con_geoms = np.empty(0, dtype=object)
+    con_field = np.empty(0, int)
+    if np.any(need):
+        idx = np.flatnonzero(need)
+        f_i = pieces.field[order][idx]
+        s_i = pieces.s[order][idx]
+        u_i, v_i = grid.u[f_i], grid.v[f_i]
+        p0 = s_i[:, None] * v_i + from_t[idx][:, None] * u_i
+        p1 = s_i[:, None] * v_i + to_t[idx][:, None] * u_i
+        cand = shapely.linestrings(np.stack([p0, p1], axis=1))
+        valid = shapely.covered_by(cand, shapely.buffer(fields[f_i].astype(object), _TOL))
+        valid &= ~shapely.intersects(cand, features[f_i].astype(object))
+        if not cross_setbacks:
+            overlap = shapely.length(shapely.intersection(cand, zones[f_i].astype(object)))
+            valid &= overlap <= 2 * _TOL
+        ok[idx] = valid
+        con_geoms, con_field, con_pos = cand, f_i, idx
+    # connected if every link from the main out to the piece is valid
+    bad = (~ok).astype(int)
+    cum_bad = np.cumsum(bad)
+    base = np.maximum.accumulate(np.where(grp_start, cum_bad - bad, 0))
+    connected_o = (cum_bad - base) == 0
+    connected = connected_o[inv]
+    if con_geoms.size:
+        keep = connected_o[con_pos]
+        con_geoms, con_field = con_geoms[keep], con_field[keep]
+    tm_out = np.where(has_main, tm, np.nan)
+    return pieces, side, tm_out, connected, con_geoms, con_field
+

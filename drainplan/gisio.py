@@ -1,0 +1,216 @@
+"""The one module that opens and writes GIS files.
+
+Readers turn a file into a GeoDataFrame in a metric projected CRS (or refuse,
+with a one-line message); writers write to a temporary file beside the target
+and rename it, so a failure leaves no half-written file, and they refuse to
+overwrite unless told. GeoPackages are written with a fixed timestamp so the
+same input gives the same file.
+"""
+
+from __future__ import annotations
+
+import os
+import tempfile
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+
+from .errors import InputError
+
+__all__ = ["ReadLayer", "read_layer", "to_metric", "write_layers", "write_atomic",
+           "FIXED_TIMESTAMP"]
+
+#: Timestamp written into GeoPackage metadata (deterministic output).
+FIXED_TIMESTAMP = "2000-01-01T00:00:00.000Z"
+
+
+@dataclass
+class ReadLayer:
+    """A layer read from a file, with its CRS story."""
+
+    frame: object            # GeoDataFrame in the working (metric) CRS
+    source_crs: object       # pyproj CRS of the file (or as assigned by the user)
+    work_crs: object         # pyproj CRS used for the layout
+    path: str
+
+
+def _gpd():
+    import geopandas
+
+    return geopandas
+
+
+def _looks_like_degrees(bounds):
+    minx, miny, maxx, maxy = bounds
+    return (np.all(np.isfinite(bounds)) and -180 <= minx <= maxx <= 180
+            and -90 <= miny <= maxy <= 90)
+
+
+def read_layer(path, *, layer=None, crs=None, what="fields", option="FIELDS"):
+    """Read a vector layer: GeoJSON, GeoPackage, Shapefile (also zipped), FlatGeobuf.
+
+    Parameters
+    ----------
+    path : str or Path
+    layer : str, optional
+        Layer name (GeoPackages with several layers).
+    crs : str, optional
+        CRS to assign when the file has none (e.g. "EPSG:4326").
+    what : str
+        Name used in messages ("fields", "exclusions").
+    option : str
+        Option or argument name used in messages.
+
+    Returns
+    -------
+    (GeoDataFrame, pyproj.CRS)
+        The data in the file's CRS, and that CRS.
+
+    Raises
+    ------
+    InputError
+        Missing or unreadable file, unknown layer, no CRS, coordinates that
+        contradict the CRS (degrees labelled as metres or the reverse).
+    """
+    import pyogrio
+    from pyproj import CRS
+
+    p = Path(path)
+    if not p.exists():
+        raise InputError(f"{what} file not found: {path}", param=option)
+    src = str(p)
+    if p.suffix.lower() == ".zip":
+        src = f"/vsizip/{p.resolve()}"
+    try:
+        layers = [row[0] for row in pyogrio.list_layers(src)]
+    except Exception as exc:
+        raise InputError(f"cannot read {what} file {path}: {_short(exc)}", param=option) from None
+    if layer is not None and layer not in layers:
+        raise InputError(f"layer {layer!r} not found in {path}; layers: {', '.join(layers)}",
+                         param="layer" if what == "fields" else f"{what}-layer")
+    if layer is None and len(layers) > 1 and p.suffix.lower() == ".gpkg":
+        raise InputError(f"{path} has several layers ({', '.join(layers)}); choose one with "
+                         f"--{'layer' if what == 'fields' else what + '-layer'}",
+                         param="layer" if what == "fields" else f"{what}-layer")
+    try:
+        gdf = _gpd().read_file(src, layer=layer, engine="pyogrio")
+    except Exception as exc:
+        raise InputError(f"cannot read {what} file {path}: {_short(exc)}", param=option) from None
+    bounds = np.asarray(gdf.total_bounds, float) if len(gdf) else np.full(4, np.nan)
+    degrees = _looks_like_degrees(bounds)
+    if gdf.crs is None:
+        if crs is None:
+            hint = (" (its coordinates look like degrees of longitude and latitude: "
+                    "--crs EPSG:4326)" if degrees else "")
+            raise InputError(f"{what} file {path} has no coordinate reference system; give "
+                             f"one with --crs EPSG:<code>{hint}", param="crs")
+        try:
+            gdf = gdf.set_crs(CRS.from_user_input(crs))
+        except Exception:
+            raise InputError(f"--crs {crs!r} is not a known CRS (e.g. EPSG:4326)",
+                             param="crs") from None
+    file_crs = CRS.from_user_input(gdf.crs)
+    if file_crs.is_geographic and len(gdf) and not _looks_like_degrees(bounds):
+        raise InputError(f"{what} file {path} says its CRS is {file_crs.to_string()} "
+                         "(degrees) but its coordinates are not degrees; give the right CRS "
+                         "with --crs", param="crs")
+    if file_crs.is_projected and len(gdf) and degrees and max(abs(bounds[[0, 2]])) <= 180 \
+            and (bounds[2] - bounds[0]) < 5 and (bounds[3] - bounds[1]) < 5:
+        raise InputError(f"{what} file {path} says its CRS is {file_crs.to_string()} "
+                         "(projected) but its coordinates look like degrees; the CRS is "
+                         "probably mislabelled (EPSG:4326?)", param="crs")
+    return gdf, file_crs
+
+
+def to_metric(gdf, file_crs, work_crs=None):
+    """Reproject to a metric projected CRS: ``work_crs`` if given, the file's CRS
+    if it is projected in metres, otherwise the local UTM zone."""
+    from pyproj import CRS
+
+    if work_crs is not None:
+        try:
+            target = CRS.from_user_input(work_crs)
+        except Exception:
+            raise InputError(f"--work-crs {work_crs!r} is not a known CRS",
+                             param="work_crs") from None
+        if not target.is_projected or _unit_factor(target) != 1.0:
+            raise InputError(f"--work-crs {work_crs!r} must be a projected CRS in metres",
+                             param="work_crs")
+    elif file_crs.is_projected and _unit_factor(file_crs) == 1.0:
+        target = file_crs
+    else:
+        target = gdf.estimate_utm_crs()
+    return gdf.to_crs(target), target
+
+
+def _unit_factor(crs):
+    try:
+        return float(crs.axis_info[0].unit_conversion_factor)
+    except Exception:
+        return float("nan")
+
+
+def _short(exc):
+    text = " ".join(str(exc).split())
+    return text[:200]
+
+
+def write_atomic(path, writer, *, overwrite=False, suffix=None):
+    """Call ``writer(tmp_path)`` and rename the result onto ``path``.
+
+    Refuses an existing ``path`` unless ``overwrite``; removes the temporary
+    file if the writer fails.
+    """
+    path = Path(path)
+    if path.exists() and not overwrite:
+        raise InputError(f"{path} exists; use --overwrite to replace it", param="output")
+    if not path.parent.exists():
+        raise InputError(f"folder {path.parent} does not exist", param="output")
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=suffix or path.suffix,
+                               dir=path.parent)
+    os.close(fd)
+    os.unlink(tmp)
+    try:
+        writer(tmp)
+        os.replace(tmp, path)
+    except BaseException:
+        for leftover in (tmp, tmp + "-journal", tmp + "-wal", tmp + "-shm"):
+            if os.path.exists(leftover):
+                os.unlink(leftover)
+        raise
+    return path
+
+
+def write_layers(path, layers, *, overwrite=False):
+    """Write named GeoDataFrames as layers of one GeoPackage, atomically.
+
+    Parameters
+    ----------
+    path : str or Path
+        Target ``.gpkg`` file.
+    layers : dict of str -> GeoDataFrame
+        Layer name to data, written in this order.
+    overwrite : bool
+    """
+    import pyogrio
+
+    def writer(tmp):
+        pyogrio.set_gdal_config_options({"OGR_CURRENT_DATE": FIXED_TIMESTAMP})
+        try:
+            for name, gdf in layers.items():
+                pyogrio.write_dataframe(gdf, tmp, layer=name, driver="GPKG",
+                                        append=os.path.exists(tmp))
+        finally:
+            pyogrio.set_gdal_config_options({"OGR_CURRENT_DATE": None})
+
+    return write_atomic(path, writer, overwrite=overwrite)
+
+
+def write_geojson(path, gdf, *, overwrite=False):
+    """Write one GeoDataFrame as GeoJSON (WGS 84 longitude/latitude), atomically."""
+    import pyogrio
+
+    out = gdf.to_crs("EPSG:4326") if gdf.crs is not None else gdf
+    return write_atomic(path, lambda tmp: pyogrio.write_dataframe(out, tmp, driver="GeoJSON"),
+                        overwrite=overwrite)

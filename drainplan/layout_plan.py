@@ -1,0 +1,240 @@
+"""Field layout as a job: files in, GIS layers and quantities out.
+
+Reads the field boundaries (and exclusions, a user main) through
+:mod:`drainplan.gisio`, lays out in a metric CRS with
+:mod:`drainplan.geometry.layout`, and returns GeoDataFrames in the output CRS
+together with per-field quantities, totals and the notes a reviewer should see.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .errors import InputError
+from .geometry.fields import check_fields
+from .geometry.layout import Layout, LayoutOptions, layout_fields
+
+__all__ = ["LayoutInputs", "LayoutPlan", "plan_layout", "LAYER_NAMES"]
+
+LAYER_NAMES = ("field", "laterals", "connectors", "mains", "outlets", "exclusions",
+               "unconnected")
+_ID_CANDIDATES = ("field_id", "id", "name", "field", "fid_name")
+
+
+@dataclass
+class LayoutInputs:
+    """Everything :func:`plan_layout` needs (lengths in metres)."""
+
+    fields_path: str
+    options: LayoutOptions
+    layer: str | None = None
+    id_field: str | None = None
+    crs: str | None = None
+    work_crs: str | None = None
+    keep_metric_crs: bool = False
+    exclude_path: str | None = None
+    exclude_layer: str | None = None
+    exclude_setback: float = 15.0
+    exclude_setback_field: str = "setback_m"
+    outlet: tuple | None = None          # (x, y) in the fields file's CRS
+    main_path: str | None = None
+    repair: bool = False
+
+
+@dataclass
+class LayoutPlan:
+    """Result of :func:`plan_layout`."""
+
+    layers: dict
+    per_field: list
+    totals: dict
+    notes: list
+    reports: list
+    work_crs: object
+    out_crs: object
+    layout: Layout
+    fields_metric: object = field(repr=False, default=None)
+    exclusions_metric: object = field(repr=False, default=None)
+
+
+def _field_ids(gdf, id_field):
+    if id_field is not None:
+        if id_field not in gdf.columns:
+            cols = ", ".join(c for c in gdf.columns if c != "geometry")
+            raise InputError(f"attribute {id_field!r} not found in the fields file; "
+                             f"attributes: {cols or 'none'}", param="id_field")
+        ids = [str(v) for v in gdf[id_field]]
+    else:
+        col = next((c for c in _ID_CANDIDATES if c in gdf.columns), None)
+        ids = [str(v) for v in gdf[col]] if col else [f"F{i + 1}" for i in range(len(gdf))]
+    if len(set(ids)) != len(ids):          # make repeated ids unique: A, A-2, A-3
+        seen = {}
+        unique = []
+        for v in ids:
+            seen[v] = seen.get(v, 0) + 1
+            unique.append(v if seen[v] == 1 else f"{v}-{seen[v]}")
+        ids = unique
+    return ids
+
+
+def plan_layout(inp: LayoutInputs) -> LayoutPlan:
+    """Read, lay out and assemble the layers of a field layout.
+
+    Raises
+    ------
+    InputError, GeometryError
+        With a one-line message naming the input.
+    """
+    import geopandas as gpd
+    import shapely
+
+    from .gisio import read_layer, to_metric
+
+    src, file_crs = read_layer(inp.fields_path, layer=inp.layer, crs=inp.crs,
+                               what="fields", option="fields")
+    if len(src) == 0:
+        raise InputError(f"fields file {inp.fields_path} holds no features", param="fields")
+    ids = _field_ids(src, inp.id_field)
+    metric, work_crs = to_metric(src, file_crs, inp.work_crs)
+    geoms, reports = check_fields(metric.geometry.values, ids, repair=inp.repair)
+    if all(g is None for g in geoms):
+        raise InputError("no usable field in the fields file (" + "; ".join(reports) + ")",
+                         param="fields")
+
+    ex_geoms = ex_setbacks = None
+    ex_metric = None
+    if inp.exclude_path is not None:
+        ex_src, ex_crs = read_layer(inp.exclude_path, layer=inp.exclude_layer,
+                                    crs=inp.crs, what="exclusions", option="exclude")
+        ex_metric = ex_src.to_crs(work_crs)
+        ex_geoms = ex_metric.geometry.values
+        if inp.exclude_setback_field in ex_metric.columns:
+            sb = np.asarray(ex_metric[inp.exclude_setback_field], float)
+            sb = np.where(np.isfinite(sb), sb, inp.exclude_setback)
+        else:
+            sb = np.full(len(ex_metric), inp.exclude_setback)
+        if np.any(sb < 0):
+            raise InputError("exclusion setbacks must be 0 m or more", param="exclude_setback")
+        ex_setbacks = sb
+
+    outlet_m = None
+    if inp.outlet is not None:
+        pt = gpd.GeoSeries([shapely.Point(inp.outlet)], crs=file_crs).to_crs(work_crs)
+        outlet_m = tuple(np.asarray(pt.iloc[0].coords[0]))
+
+    user_mains = None
+    if inp.main_path is not None:
+        m_src, _ = read_layer(inp.main_path, crs=inp.crs, what="main", option="main")
+        m_metric = m_src.to_crs(work_crs)
+        lines = [g for g in m_metric.geometry.values if g is not None
+                 and g.geom_type in ("LineString", "MultiLineString")]
+        if not lines:
+            raise InputError(f"main file {inp.main_path} holds no line", param="main")
+        user_mains = np.full(len(geoms), None, dtype=object)
+        for i, g in enumerate(geoms):
+            if g is None:
+                continue
+            hits = [ln for ln in lines if shapely.intersects(ln, g)]
+            if hits:
+                merged = shapely.line_merge(shapely.union_all(hits))
+                if merged.geom_type == "MultiLineString":
+                    merged = max(merged.geoms, key=lambda x: x.length)
+                user_mains[i] = merged
+
+    lay = layout_fields(geoms, inp.options, exclusions=ex_geoms,
+                        exclusion_setbacks=ex_setbacks, outlet=outlet_m, user_mains=user_mains)
+    area = np.array([shapely.area(g) if g is not None else 0.0 for g in geoms])
+    per, tot = lay.quantities(area)
+    out_crs = work_crs if inp.keep_metric_crs else file_crs
+
+    def frame(data, geometry):
+        g = gpd.GeoDataFrame(data, geometry=gpd.GeoSeries(list(geometry), crs=work_crs))
+        return g.to_crs(out_crs) if out_crs != work_crs else g
+
+    fid = np.array(ids, dtype=object)
+    used = np.array([g is not None for g in geoms])
+    field_rows = {
+        "field_id": list(fid[used]),
+        "area_ha": np.round(area[used] / 1e4, 4),
+        "bearing_deg": np.round(lay.bearing[used], 3),
+        "spacing_m": np.full(used.sum(), lay.spacing),
+        "laterals": per["laterals"][used],
+        "lateral_length_m": np.round(per["lateral_length_m"][used], 2),
+        "main_length_m": np.round(per["main_length_m"][used], 2),
+    }
+    layers = {"field": frame(field_rows, np.asarray(geoms, dtype=object)[used])}
+    # lateral ids: field, line number, side of the main (a/b)
+    lid = [f"{fid[f]}-{line + 1:03d}{'a' if side < 0 else 'b'}{k}"
+           for f, line, side, k in zip(lay.lateral_field, lay.lateral_line, lay.lateral_side,
+                                       _piece_numbers(lay))]
+    layers["laterals"] = frame({
+        "field_id": list(fid[lay.lateral_field]) if lay.lateral_field.size else [],
+        "lateral_id": lid,
+        "length_m": np.round(lay.lateral_length, 3),
+        "spacing_m": np.full(lay.lateral_field.size, lay.spacing),
+    }, lay.laterals)
+    layers["connectors"] = frame({
+        "field_id": list(fid[lay.connector_field]) if lay.connector_field.size else [],
+        "length_m": np.round(shapely.length(lay.connectors), 3) if lay.connectors.size else [],
+        "pipe": ["non-perforated"] * lay.connectors.size,
+    }, lay.connectors)
+    has_main = np.array([m is not None for m in lay.mains])
+    layers["mains"] = frame({
+        "field_id": list(fid[has_main]),
+        "main_id": [f"{f}-M" for f in fid[has_main]],
+        "length_m": np.round([m.length for m in lay.mains[has_main]], 3),
+        "kind": ["collector main"] * int(has_main.sum()),
+    }, lay.mains[has_main])
+    has_out = np.array([o is not None for o in lay.outlets])
+    out_ids = list(fid[has_out])
+    out_geoms = list(lay.outlets[has_out])
+    kinds = ["main outlet"] * len(out_ids)
+    if outlet_m is not None:
+        out_ids.append("")
+        out_geoms.append(shapely.Point(outlet_m))
+        kinds.append("receiving outlet (given)")
+    layers["outlets"] = frame({"field_id": out_ids, "kind": kinds}, out_geoms)
+    if ex_metric is not None:
+        ex_cols = {"kind": list(ex_metric["kind"]) if "kind" in ex_metric.columns
+                   else ["exclusion"] * len(ex_metric),
+                   "setback_m": ex_setbacks}
+        layers["exclusions"] = frame(ex_cols, ex_metric.geometry.values)
+    else:
+        layers["exclusions"] = frame({"kind": [], "setback_m": []}, [])
+    layers["unconnected"] = frame({
+        "field_id": list(fid[lay.unconnected_field]) if lay.unconnected_field.size else [],
+        "length_m": np.round(shapely.length(lay.unconnected), 3) if lay.unconnected.size
+        else [],
+    }, lay.unconnected)
+
+    per_field = []
+    for i in np.flatnonzero(used):
+        row = {"field_id": ids[i], "bearing_deg": float(np.round(lay.bearing[i], 3))}
+        row.update({k: (int(v[i]) if v.dtype.kind == "i" else float(np.round(v[i], 3)))
+                    for k, v in per.items()})
+        per_field.append(row)
+    notes = list(lay.notes)
+    if np.any(np.isfinite(lay.bearing[used])) and inp.options.direction == "auto":
+        notes.append("lateral direction 'auto': long axis of each field's minimum rotated "
+                     "rectangle")
+    notes.append(f"layout computed in {work_crs.to_string()} (metres); bearings are grid "
+                 "bearings of that CRS")
+    return LayoutPlan(layers, per_field, tot, notes, reports, work_crs, out_crs, lay,
+                      fields_metric=np.asarray(geoms, dtype=object),
+                      exclusions_metric=ex_geoms)
+
+
+def _piece_numbers(lay):
+    """Suffix for the pieces of one lateral run: '' for the first, '.2', '.3', ...
+    (in order along the lateral)."""
+    n = lay.lateral_field.size
+    key = np.stack([lay.lateral_field, lay.lateral_line, lay.lateral_side], axis=1)
+    out = []
+    seen = {}
+    for i in range(n):
+        k = tuple(key[i])
+        seen[k] = seen.get(k, 0) + 1
+        out.append("" if seen[k] == 1 else f".{seen[k]}")
+    return out

@@ -1,0 +1,191 @@
+"""`drainplan layout` end to end: formats, CRS handling, outputs and bad input."""
+
+import json
+import zipfile
+from pathlib import Path
+
+import geopandas as gpd
+import numpy as np
+import pyogrio
+import pytest
+import shapely
+from pyproj import Geod
+
+DEMO = Path(__file__).resolve().parents[1] / "demo_fields"
+FIELDS = DEMO / "fields.geojson"
+EXCL = DEMO / "exclusions.geojson"
+
+
+def _layout(run, fields, out, *extra):
+    return run("layout", fields, "--spacing", "18 m", "--direction", "auto", "--setback",
+               "6 m", "-o", out, *extra)
+
+
+def test_demo_layout_and_layers(run, tmp_path):
+    out = tmp_path / "plan.gpkg"
+    png = tmp_path / "plan.png"
+    r = _layout(run, FIELDS, out, "--exclude", EXCL, "--outlet", DEMO / "outlet.geojson",
+                "--plot", png, "--json")
+    assert r.exit_code == 0, r.output
+    summary = json.loads(r.stdout)
+    layers = {row[0] for row in pyogrio.list_layers(out)}
+    assert {"field", "laterals", "mains", "outlets", "exclusions"} <= layers
+    lat = gpd.read_file(out, layer="laterals")
+    assert {"field_id", "lateral_id", "length_m", "spacing_m"} <= set(lat.columns)
+    assert lat.crs.to_epsg() == 4326                        # written in the input CRS
+    assert summary["totals"]["laterals"] > 40
+    assert png.stat().st_size > 10_000
+    # lengths (computed in UTM) agree with geodesic lengths on the ellipsoid: the UTM point
+    # scale factor lies in 0.9996-1.0010 inside a zone (Snyder 1987, USGS Prof. Paper 1395,
+    # ch. 8 -- recalled), so 0.15 % covers it.
+    geod = Geod(ellps="WGS84")
+    geo = np.array([geod.geometry_length(g) for g in lat.geometry])
+    np.testing.assert_allclose(lat["length_m"], geo, rtol=1.5e-3)
+    # field areas: geodesic area of the lon/lat polygons
+    fld = gpd.read_file(out, layer="field")
+    geo_area = np.array([abs(geod.geometry_area_perimeter(g)[0]) for g in fld.geometry])
+    np.testing.assert_allclose(fld["area_ha"] * 1e4, geo_area, rtol=3e-3)
+
+
+def test_round_trip_reprojection(run, tmp_path):
+    out = tmp_path / "plan.gpkg"
+    assert _layout(run, FIELDS, out).exit_code == 0
+    src = gpd.read_file(FIELDS)
+    back = gpd.read_file(out, layer="field")
+    for a, b in zip(src.geometry, back.geometry):
+        assert shapely.equals_exact(shapely.normalize(a), shapely.normalize(b), tolerance=1e-9)
+    # keep the metric CRS on request
+    out2 = tmp_path / "metric.gpkg"
+    assert _layout(run, FIELDS, out2, "--keep-metric-crs").exit_code == 0
+    assert gpd.read_file(out2, layer="field").crs.to_epsg() == 32615
+
+
+@pytest.mark.parametrize("fmt", ["gpkg", "shp", "zip", "fgb"])
+def test_input_formats(run, tmp_path, fmt):
+    src = gpd.read_file(FIELDS).to_crs(32615)
+    if fmt == "gpkg":
+        path = tmp_path / "in.gpkg"
+        src.to_file(path, layer="boundaries", engine="pyogrio")
+        src.iloc[:1].to_file(path, layer="other", engine="pyogrio")
+        extra = ["--layer", "boundaries"]
+    elif fmt in ("shp", "zip"):
+        path = tmp_path / "in.shp"
+        src.to_file(path, engine="pyogrio")
+        extra = []
+        if fmt == "zip":
+            z = tmp_path / "in.zip"
+            with zipfile.ZipFile(z, "w") as zf:
+                for p in tmp_path.glob("in.*"):
+                    if p.suffix != ".zip":
+                        zf.write(p, p.name)
+            path = z
+    else:
+        path = tmp_path / "in.fgb"
+        src.to_file(path, driver="FlatGeobuf", engine="pyogrio")
+        extra = []
+    out = tmp_path / "o.gpkg"
+    r = _layout(run, path, out, "--json", *extra)
+    assert r.exit_code == 0, r.output
+    assert len(json.loads(r.stdout)["fields"]) == 3
+
+
+def test_deterministic_files(run, tmp_path):
+    a, b = tmp_path / "a.gpkg", tmp_path / "b.gpkg"
+    assert _layout(run, FIELDS, a, "--exclude", EXCL).exit_code == 0
+    assert _layout(run, FIELDS, b, "--exclude", EXCL).exit_code == 0
+    assert a.read_bytes() == b.read_bytes()
+
+
+def test_refuses_overwrite(run, tmp_path):
+    out = tmp_path / "o.gpkg"
+    assert _layout(run, FIELDS, out).exit_code == 0
+    before = out.read_bytes()
+    r = _layout(run, FIELDS, out)
+    assert r.exit_code == 2 and "--overwrite" in r.stderr
+    assert out.read_bytes() == before
+    assert _layout(run, FIELDS, out, "--overwrite").exit_code == 0
+
+
+def _no_crs_file(tmp_path, degrees=True):
+    src = gpd.read_file(FIELDS)
+    if not degrees:
+        src = src.to_crs(32615)
+    path = tmp_path / "nocrs.shp"
+    src.to_file(path, engine="pyogrio")
+    (tmp_path / "nocrs.prj").unlink()
+    return path
+
+
+def _mislabelled(tmp_path):
+    src = gpd.read_file(FIELDS).set_crs(32615, allow_override=True)
+    path = tmp_path / "mislabelled.gpkg"
+    src.to_file(path, engine="pyogrio")
+    return path
+
+
+def _bowtie(tmp_path):
+    g = gpd.GeoDataFrame({"field_id": ["X"]}, geometry=[shapely.Polygon(
+        [(0, 0), (300, 300), (300, 0), (0, 300)])], crs=32615)
+    path = tmp_path / "bowtie.gpkg"
+    g.to_file(path, engine="pyogrio")
+    return path
+
+
+def _garbage(tmp_path):
+    path = tmp_path / "garbage.geojson"
+    path.write_text("{ this is not json")
+    return path
+
+
+BAD = {
+    "missing file": (lambda p: p / "nope.geojson", [], "not found", None),
+    "unreadable file": (_garbage, [], "cannot read", None),
+    "unknown layer": (lambda p: FIELDS, ["--layer", "roads"], "layer 'roads' not found",
+                      "--layer"),
+    "no crs": (lambda p: _no_crs_file(p), [], "--crs EPSG:4326", "--crs"),
+    "no crs metres": (lambda p: _no_crs_file(p, degrees=False), [], "no coordinate reference",
+                      "--crs"),
+    "degrees mislabelled": (_mislabelled, [], "look like degrees", "--crs"),
+    "self-intersecting": (_bowtie, [], "invalid boundary", None),
+}
+
+
+@pytest.mark.parametrize("case", list(BAD))
+def test_bad_input(run, tmp_path, case):
+    make, extra, text, option = BAD[case]
+    out = tmp_path / "out.gpkg"
+    r = _layout(run, make(tmp_path), out, *extra)
+    assert r.exit_code != 0, r.output
+    lines = r.stderr.strip().splitlines()
+    assert len(lines) == 1 and lines[0].startswith("drainplan: error:")
+    assert text in lines[0]
+    if option:
+        assert option in lines[0]
+    assert not out.exists()
+    assert not list(tmp_path.glob(".out.gpkg*"))         # no temporary left behind
+    assert "Traceback" not in r.output
+
+
+def test_spacing_larger_than_field(run, tmp_path):
+    out = tmp_path / "o.gpkg"
+    r = run("layout", FIELDS, "--spacing", "2 km", "--direction", "0", "--setback", "0",
+            "-o", out)
+    assert r.exit_code == 2 and "--spacing" in r.stderr and "larger than every field" in r.stderr
+    assert not out.exists()
+
+
+def test_repair_reports(run, tmp_path):
+    out = tmp_path / "o.gpkg"
+    r = _layout(run, _bowtie(tmp_path), out, "--repair")
+    assert r.exit_code == 0, r.output
+    assert "repaired" in r.stderr
+
+
+def test_bad_options(run, tmp_path):
+    out = tmp_path / "o.gpkg"
+    for args, opt in ((["--direction", "north"], "--direction"),
+                      (["--outlet", "1;2"], "--outlet"),
+                      (["--spacing", "3 m/d"], "--spacing")):
+        r = run("layout", FIELDS, "--spacing", "18 m", "--setback", "6 m", "-o", out, *args)
+        assert r.exit_code == 2 and opt in r.stderr, (args, r.stderr)
+    assert not out.exists()

@@ -1,0 +1,196 @@
+"""Lateral and main layout on canonical field shapes (metres, projected plane)."""
+
+import numpy as np
+import pytest
+import shapely
+from hypothesis import assume, given, settings, strategies as st
+from numpy.testing import assert_allclose
+
+from drainplan.errors import GeometryError, InputError
+from drainplan.geometry.fields import check_fields, long_axis_bearing
+from drainplan.geometry.laterals import frame_axes, scan_laterals
+from drainplan.geometry.layout import LayoutOptions, layout_fields
+
+RECT = shapely.box(0, 0, 400, 200)
+L_SHAPE = shapely.Polygon([(0, 0), (300, 0), (300, 120), (120, 120), (120, 300), (0, 300)])
+HOLE = shapely.box(0, 0, 400, 300).difference(shapely.box(150, 100, 220, 160))
+MULTI = shapely.MultiPolygon([shapely.box(0, 0, 200, 100), shapely.box(300, 0, 500, 120)])
+CONCAVE = shapely.Polygon([(0, 0), (400, 0), (400, 300), (200, 120), (0, 300)])
+SLIVER = shapely.box(0, 0, 500, 3)
+EMPTY = shapely.Polygon()
+CANON = {"rectangle": RECT, "l_shape": L_SHAPE, "hole": HOLE, "multipolygon": MULTI,
+         "concave": CONCAVE}
+
+
+def cavalieri_bound(poly, spacing):
+    """|sum(length) * L - area| <= L * P / 2: each lateral stands for a strip of width L
+    (midpoint rule); the chord's total variation across the laterals is at most the
+    perimeter P, so each strip errs by at most L/2 times its share of it (Cavalieri's
+    principle with the midpoint-rule error bound)."""
+    return spacing * shapely.length(poly) / 2
+
+
+@pytest.mark.parametrize("name", list(CANON))
+@pytest.mark.parametrize("bearing", [0.0, 37.0, 90.0, 146.0])
+def test_cavalieri(name, bearing):
+    poly = CANON[name]
+    lat, _ = scan_laterals([poly], bearing, 15.0)
+    err = abs(lat.length.sum() * 15.0 - poly.area)
+    assert err <= cavalieri_bound(poly, 15.0)
+    # and lengths agree with shapely's general clipping of the same lines
+    u, v = frame_axes(bearing)
+    g = lat.geometries()
+    assert np.all(shapely.covered_by(g, shapely.buffer(poly, 1e-6)))
+
+
+def test_rectangle_exact():
+    lat, _ = scan_laterals([RECT], 0.0, 15.0)     # laterals north-south
+    s = np.unique(lat.s.round(6))
+    assert len(s) == 27                            # ceil(400 / 15)
+    assert_allclose(np.diff(s), 15.0)
+    assert_allclose(s[0] - 0, 400 - s[-1])        # balanced strips
+    assert s[0] <= 7.5
+    assert_allclose(lat.length, 200.0)
+
+
+def test_offset_option():
+    lat, _ = scan_laterals([RECT], 0.0, 15.0, offset=2.0)
+    assert_allclose(np.unique(lat.s.round(6))[:2], [2.0, 17.0])
+
+
+def test_hole_and_multipolygon_pieces():
+    lat, _ = scan_laterals([HOLE], 90.0, 15.0)
+    g = lat.geometries()
+    assert not np.any(shapely.intersects(g, shapely.box(150.001, 100.001, 219.999, 159.999)))
+    lat, _ = scan_laterals([MULTI], 0.0, 20.0)
+    assert np.all(shapely.covered_by(lat.geometries(), shapely.buffer(MULTI, 1e-6)))
+
+
+def test_empty_in_empty_out():
+    lat, _ = scan_laterals([EMPTY], 0.0, 15.0)
+    assert lat.field.size == 0
+    lat, _ = scan_laterals(np.array([], dtype=object), 0.0, 15.0)
+    assert lat.field.size == 0
+
+
+def test_check_fields_reports():
+    bowtie = shapely.Polygon([(0, 0), (100, 100), (100, 0), (0, 100)])
+    with pytest.raises(GeometryError, match="'bow'.*invalid"):
+        check_fields([bowtie], ["bow"])
+    geoms, reports = check_fields([bowtie, EMPTY, SLIVER, RECT], ["bow", "e", "s", "r"],
+                                  repair=True)
+    assert geoms[0] is not None and shapely.is_valid(geoms[0])
+    assert geoms[1] is None and geoms[2] is None and geoms[3] is RECT
+    assert any("repaired" in r for r in reports)
+    assert any("sliver" in r for r in reports) and any("empty" in r for r in reports)
+    with pytest.raises(GeometryError, match="polygon"):
+        check_fields([shapely.LineString([(0, 0), (1, 1)])], ["x"])
+
+
+def test_long_axis():
+    assert_allclose(long_axis_bearing([RECT, shapely.box(0, 0, 50, 300)]), [90.0, 0.0])
+    rot = shapely.affinity.rotate(RECT, -30, origin=(0, 0))   # clockwise 30 degrees
+    assert_allclose(long_axis_bearing([rot]), [120.0], atol=1e-6)
+
+
+def test_layout_main_and_quantities():
+    lay = layout_fields([RECT, L_SHAPE], LayoutOptions(spacing=15, direction=90, setback=6))
+    per, tot = lay.quantities(shapely.area(np.array([RECT, L_SHAPE])))
+    assert per["laterals"][0] == 13                 # ceil((200 - 12) / 15)
+    assert_allclose(per["lateral_length_m"][0], 13 * (400 - 12))
+    main = lay.mains[0]
+    assert_allclose(main.length, 12 * 15.0, atol=1e-6)   # between first and last junction
+    # every lateral of the rectangle starts on the main
+    g = lay.laterals[lay.lateral_field == 0]
+    assert np.all(shapely.distance(g, main) < 1e-6)
+    assert tot["unconnected_pieces"] == 0
+    assert_allclose(tot["drain_density_m_per_ha"],
+                    tot["lateral_length_m"] / tot["field_area_ha"])
+
+
+def test_exclusion_cuts_laterals_and_connector():
+    well = shapely.Point(200, 100)
+    lay = layout_fields([RECT], LayoutOptions(spacing=15, direction=90, setback=0),
+                        exclusions=[well], exclusion_setbacks=[20.0])
+    zone = well.buffer(20.0)
+    assert np.all(shapely.length(shapely.intersection(lay.laterals, zone)) < 1e-6)
+    # pieces beyond the well reach the main through non-perforated connectors
+    assert lay.connectors.size > 0
+    assert np.all(shapely.intersects(lay.connectors, zone))
+    assert lay.unconnected.size == 0
+    lay2 = layout_fields([RECT], LayoutOptions(spacing=15, direction=90, setback=0,
+                                               cross_setbacks=False),
+                         exclusions=[well], exclusion_setbacks=[20.0])
+    assert lay2.connectors.size == 0 and lay2.unconnected.size > 0
+
+
+def test_hole_needs_submain():
+    lay = layout_fields([HOLE], LayoutOptions(spacing=15, direction=90, main_side="W"))
+    assert lay.unconnected.size > 0     # pieces east of the hole cannot cross it
+    assert not np.any(shapely.intersects(lay.connectors, shapely.box(151, 101, 219, 159)))
+
+
+def test_spacing_larger_than_field():
+    with pytest.raises(InputError, match="larger than every field"):
+        layout_fields([RECT], LayoutOptions(spacing=500, direction=90))
+
+
+def test_min_length_drops_and_counts():
+    tri = shapely.Polygon([(0, 0), (300, 0), (0, 150)])
+    lay = layout_fields([tri], LayoutOptions(spacing=15, direction=90, min_length=40))
+    assert lay.dropped_count[0] > 0
+    assert np.all(lay.lateral_length >= 40)
+
+
+# --- properties on random polygons ----------------------------------------------------
+@st.composite
+def star_polygons(draw):
+    k = draw(st.integers(5, 10))
+    ang = np.sort(np.array(draw(st.lists(st.floats(0, 2 * np.pi), min_size=k, max_size=k,
+                                         unique=True))))
+    rad = np.array(draw(st.lists(st.floats(0.6, 1.0), min_size=k, max_size=k)))
+    scale = draw(st.floats(150, 600))
+    pts = np.c_[np.cos(ang) * rad, np.sin(ang) * rad] * scale
+    poly = shapely.Polygon(pts)
+    assume(poly.is_valid and poly.area > 2e4)
+    return poly
+
+
+@settings(max_examples=60, deadline=None)
+@given(poly=star_polygons(), bearing=st.floats(0, 179.9), spacing=st.floats(8, 40),
+       setback=st.floats(0, 12), well=st.tuples(st.floats(-0.3, 0.3), st.floats(-0.3, 0.3)),
+       well_setback=st.floats(5, 40))
+def test_layout_properties(poly, bearing, spacing, setback, well, well_setback):
+    c = poly.centroid
+    w = shapely.Point(c.x + well[0] * 100, c.y + well[1] * 100)
+    try:
+        lay = layout_fields([poly], LayoutOptions(spacing=spacing, direction=bearing,
+                                                  setback=setback, min_length=0.0),
+                            exclusions=[w], exclusion_setbacks=[well_setback])
+    except InputError:
+        assume(False)
+    inset = shapely.buffer(poly, -setback, join_style="mitre") if setback else poly
+    g = lay.laterals
+    if g.size == 0:
+        return
+    # inside the field less its setback, outside the exclusion's setback
+    assert np.all(shapely.covered_by(g, shapely.buffer(inset, 1e-6)))
+    assert np.all(shapely.length(shapely.intersection(g, w.buffer(well_setback - 1e-6)))
+                  < 1e-6)
+    # at the requested bearing
+    xy = shapely.get_coordinates(g).reshape(-1, 2, 2)
+    d = xy[:, 1] - xy[:, 0]
+    u, v = frame_axes(bearing)
+    assert_allclose(np.abs(d @ v) / np.hypot(*d.T), 0.0, atol=1e-9)
+    # neighbouring laterals one spacing apart
+    s = np.unique(np.round(xy[:, 0] @ v, 6))
+    steps = np.diff(s) / spacing
+    assert_allclose(steps, np.round(steps), atol=1e-6)
+    # every lateral reaches the main, directly or through its connectors
+    main = lay.mains[0]
+    assert main is not None
+    network = shapely.union_all(np.concatenate([[main], lay.connectors, g]))
+    parts = shapely.get_parts(shapely.line_merge(network)) if network.geom_type != \
+        "LineString" else np.array([network])
+    touching = shapely.union_all(parts[shapely.distance(parts, main) < 1e-6])
+    assert np.all(shapely.distance(g, touching) < 1e-6)
