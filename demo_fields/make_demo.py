@@ -1,7 +1,7 @@
 """Build the invented demo farm (run once; the outputs are committed).
 
 Everything here is invented: the farm, its fields, the well, the pond, the
-hedge and the outlet ditch. Coordinates are laid out in a local metric frame
+hedge, the outlet ditch and the survey points. Coordinates are laid out in a local metric frame
 and placed in UTM zone 15N only so that the files carry real-looking
 longitude/latitude; no real property, owner or survey is represented.
 
@@ -49,6 +49,15 @@ def main():
         path = HERE / f"{name}.geojson"
         path.unlink(missing_ok=True)
         out.to_file(path, driver="GeoJSON", engine="pyogrio", COORDINATE_PRECISION=7)
+    # survey: a gentle invented surface falling 0.3-0.6 % towards the outlet corner
+    gx, gy = np.meshgrid(np.arange(-40.0, 981.0, 40.0), np.arange(-40.0, 881.0, 40.0))
+    gx, gy = gx.ravel(), gy.ravel()
+    z = (301.0 + 0.0035 * gx + 0.0045 * gy + 0.25 * np.sin(gx / 170.0) * np.cos(gy / 230.0))
+    pts = gpd.GeoSeries(shapely.points(X0 + gx, Y0 + gy), crs=CRS_LOCAL).to_crs("EPSG:4326")
+    with open(HERE / "survey.csv", "w", encoding="utf-8") as fh:
+        fh.write("lon,lat,z\n")
+        for p, zz in zip(pts, z):
+            fh.write(f"{p.x:.7f},{p.y:.7f},{zz:.3f}\n")
     lon, lat = outlet.to_crs("EPSG:4326").geometry.iloc[0].coords[0]
     print(f"outlet: {lon:.7f},{lat:.7f}")
 

@@ -8,6 +8,7 @@ together with per-field quantities, totals and the notes a reviewer should see.
 
 from __future__ import annotations
 
+import dataclasses
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -41,6 +42,9 @@ class LayoutInputs:
     outlet: tuple | None = None          # (x, y) in the fields file's CRS
     main_path: str | None = None
     repair: bool = False
+    survey_path: str | None = None       # elevations: 'auto' runs laterals across the slope
+    survey_crs: str | None = None
+    survey_z_unit: str = "m"
 
 
 @dataclass
@@ -143,7 +147,12 @@ def plan_layout(inp: LayoutInputs) -> LayoutPlan:
                     merged = max(merged.geoms, key=lambda x: x.length)
                 user_mains[i] = merged
 
-    lay = layout_fields(geoms, inp.options, exclusions=ex_geoms,
+    options = inp.options
+    slope_notes = []
+    if inp.survey_path is not None and options.direction == "auto":
+        bearings, slope_notes = _across_slope(inp, geoms, ids, work_crs)
+        options = dataclasses.replace(options, direction=bearings)
+    lay = layout_fields(geoms, options, exclusions=ex_geoms,
                         exclusion_setbacks=ex_setbacks, outlet=outlet_m, user_mains=user_mains)
     area = np.array([shapely.area(g) if g is not None else 0.0 for g in geoms])
     per, tot = lay.quantities(area)
@@ -163,10 +172,11 @@ def plan_layout(inp: LayoutInputs) -> LayoutPlan:
         "laterals": per["laterals"][used],
         "lateral_length_m": np.round(per["lateral_length_m"][used], 2),
         "main_length_m": np.round(per["main_length_m"][used], 2),
+        "work_crs": [work_crs.to_string()] * int(used.sum()),
     }
     layers = {"field": frame(field_rows, np.asarray(geoms, dtype=object)[used])}
     # lateral ids: field, line number, side of the main (a/b)
-    lid = [f"{fid[f]}-{line + 1:03d}{'a' if side < 0 else 'b'}{k}"
+    lid = [_run_id(fid[f], line, side) + k
            for f, line, side, k in zip(lay.lateral_field, lay.lateral_line, lay.lateral_side,
                                        _piece_numbers(lay))]
     layers["laterals"] = frame({
@@ -177,6 +187,8 @@ def plan_layout(inp: LayoutInputs) -> LayoutPlan:
     }, lay.laterals)
     layers["connectors"] = frame({
         "field_id": list(fid[lay.connector_field]) if lay.connector_field.size else [],
+        "lateral_id": [_run_id(fid[f], line, side) for f, line, side in
+                       zip(lay.connector_field, lay.connector_line, lay.connector_side)],
         "length_m": np.round(shapely.length(lay.connectors), 3) if lay.connectors.size else [],
         "pipe": ["non-perforated"] * lay.connectors.size,
     }, lay.connectors)
@@ -215,8 +227,8 @@ def plan_layout(inp: LayoutInputs) -> LayoutPlan:
         row.update({k: (int(v[i]) if v.dtype.kind == "i" else float(np.round(v[i], 3)))
                     for k, v in per.items()})
         per_field.append(row)
-    notes = list(lay.notes)
-    if np.any(np.isfinite(lay.bearing[used])) and inp.options.direction == "auto":
+    notes = list(lay.notes) + slope_notes
+    if inp.survey_path is None and inp.options.direction == "auto":
         notes.append("lateral direction 'auto': long axis of each field's minimum rotated "
                      "rectangle")
     notes.append(f"layout computed in {work_crs.to_string()} (metres); bearings are grid "
@@ -224,6 +236,39 @@ def plan_layout(inp: LayoutInputs) -> LayoutPlan:
     return LayoutPlan(layers, per_field, tot, notes, reports, work_crs, out_crs, lay,
                       fields_metric=np.asarray(geoms, dtype=object),
                       exclusions_metric=ex_geoms)
+
+
+def _across_slope(inp, geoms, ids, work_crs):
+    """Per-field bearings across the fall of a plane fitted to the surveyed ground."""
+    import shapely
+
+    from .pipes_plan import read_survey
+    from .terrain import PointSurface, check_coverage, fall_bearing, fit_plane
+
+    xy, z = read_survey(inp.survey_path, crs=inp.survey_crs or work_crs,
+                        z_unit=inp.survey_z_unit, work_crs=work_crs)
+    surface = PointSurface(xy, z)
+    check_coverage(surface, geoms, ids)
+    bearings = np.full(len(geoms), np.nan)
+    notes = []
+    for i, g in enumerate(geoms):
+        if g is None:
+            continue
+        x0, y0, x1, y1 = g.bounds
+        gx, gy = np.meshgrid(np.linspace(x0, x1, 25), np.linspace(y0, y1, 25))
+        pts = np.c_[gx.ravel(), gy.ravel()]
+        pts = pts[shapely.contains_xy(g, pts[:, 0], pts[:, 1])]
+        a, b, _ = fit_plane(pts, surface(pts))
+        fall, slope = fall_bearing(a, b)
+        bearings[i] = (fall + 90.0) % 180.0
+        notes.append(f"field {ids[i]}: ground falls {slope:.2%} towards {fall:.0f} deg; "
+                     f"laterals laid across the slope at {bearings[i]:.0f} deg")
+    return bearings, notes
+
+
+def _run_id(field_id, line, side):
+    """Id of a lateral run: field, line number across the field, side of the main."""
+    return f"{field_id}-{line + 1:03d}{'a' if side < 0 else 'b'}"
 
 
 def _piece_numbers(lay):

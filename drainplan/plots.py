@@ -104,3 +104,28 @@ def plan_map(layers, *, ax=None, title=None):
 def save_figure(fig, path, *, dpi=150):
     """Save a figure as PNG without timestamps in its metadata (deterministic bytes)."""
     fig.savefig(path, dpi=dpi, bbox_inches="tight", metadata={"Software": None})
+
+
+def profile_plot(profile, *, ax=None, title=None, invert_label="pipe invert"):
+    """Long section of one pipe: ground line and invert against chainage.
+
+    Parameters
+    ----------
+    profile : dict
+        ``chainage``, ``ground`` and ``invert`` arrays [m].
+    """
+    import matplotlib.pyplot as plt
+
+    if ax is None:
+        _, ax = plt.subplots(figsize=(8, 3))
+    ch, ground, inv = profile["chainage"], profile["ground"], profile["invert"]
+    ax.plot(ch, ground, color="#6b4f2a", linewidth=1.4, label="ground")
+    ax.plot(ch, inv, color="#2a6fb0", linewidth=1.4, label=invert_label)
+    ax.fill_between(ch, inv, ground, color="#e9e2d0", alpha=0.6, linewidth=0)
+    ax.set_xlabel("chainage (m)")
+    ax.set_ylabel("elevation (m)")
+    ax.grid(True, color="#dddddd", linewidth=0.5)
+    ax.legend(fontsize=8, frameon=False)
+    if title:
+        ax.set_title(title, fontsize=10)
+    return ax

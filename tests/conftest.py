@@ -1,7 +1,15 @@
 """Shared fixtures: the CLI runner and canonical inputs."""
 
+import os
+
 import pytest
 from click.testing import CliRunner
+from hypothesis import settings
+
+# CI runs a fixed set of examples (same every run); local runs explore new ones.
+settings.register_profile("ci", derandomize=True, print_blob=True)
+if os.environ.get("CI"):
+    settings.load_profile("ci")
 
 
 @pytest.fixture

@@ -37,23 +37,26 @@ def test_ci_runs_the_readme_test_command():
     assert _setup_commands()[1] in ci.splitlines()
 
 
-@pytest.mark.parametrize("command", _console_commands() + [
-    re.search(r"\.venv/bin/(drainplan .*)$", _setup_commands()[0]).group(1)])
-def test_readme_command_runs(run, command, tmp_path, monkeypatch):
-    # run from a scratch folder holding a link to the demo data, as a user would in a clone
+def test_readme_commands_run_in_order(run, tmp_path, monkeypatch):
+    """Every `$ drainplan ...` line of the README, in order, in one scratch folder that
+    holds a link to the demo data (later examples use the files earlier ones wrote)."""
     (tmp_path / "demo_fields").symlink_to(ROOT / "demo_fields")
     monkeypatch.chdir(tmp_path)
-    args = shlex.split(command)[1:]
-    r = run(*args)
-    assert r.exit_code == 0, r.output
-    if args[0] == "spacing":
-        if "--json" in args:
-            assert json.loads(r.stdout)["spacing_m"] > 0
-        else:
-            assert "drain spacing" in r.stdout
-    for i, a in enumerate(args):
-        if a in ("-o", "--plot"):
-            assert (tmp_path / args[i + 1]).stat().st_size > 0
+    setup = re.search(r"\.venv/bin/(drainplan .*)$", _setup_commands()[0]).group(1)
+    commands = [setup] + _console_commands()
+    assert len(commands) >= 6
+    for command in commands:
+        args = shlex.split(command)[1:]
+        r = run(*args)
+        assert r.exit_code == 0, (command, r.output)
+        if args[0] == "spacing":
+            if "--json" in args:
+                assert json.loads(r.stdout)["spacing_m"] > 0
+            else:
+                assert "drain spacing" in r.stdout
+        for i, a in enumerate(args):
+            if a in ("-o", "--output", "--plot", "--gpkg"):
+                assert (tmp_path / args[i + 1]).stat().st_size > 0, (command, a)
 
 
 def test_readme_python_example():

@@ -91,10 +91,12 @@ def cli(ctx, verbose, quiet):
 
 def _register():
     from .layout import layout
+    from .pipes import pipes
     from .spacing import spacing
 
     cli.add_command(spacing)
     cli.add_command(layout)
+    cli.add_command(pipes)
 
 
 _register()

@@ -86,6 +86,10 @@ def _parse_outlet(value):
               help="Allow non-perforated connectors through exclusion setback zones.")
 @click.option("--repair", is_flag=True, help="Repair invalid field boundaries instead of "
                                              "refusing them.")
+@click.option("--survey", "survey_path", type=click.Path(dir_okay=False),
+              help="Survey points (CSV x, y, z): with --direction auto, laterals run across "
+                   "the fall of a plane fitted to each field.")
+@click.option("--survey-crs", help="CRS of the survey x, y (default: the working CRS).")
 @click.option("--plot", "plot_path", type=click.Path(dir_okay=False),
               help="Also write a PNG plan.")
 @click.option("--geojson-dir", type=click.Path(file_okay=False),
@@ -94,8 +98,8 @@ def _parse_outlet(value):
 @json_option
 def layout(fields, spacing, direction, setback, output, layer, id_field, crs, work_crs,
            keep_metric_crs, exclude_path, exclude_layer, exclude_setback, min_length, offset,
-           main_side, main_path, outlet, cross_setbacks, repair, plot_path, geojson_dir,
-           overwrite, as_json):
+           main_side, main_path, outlet, cross_setbacks, repair, survey_path, survey_crs,
+           plot_path, geojson_dir, overwrite, as_json):
     """Lay out parallel laterals and a collector main over the field boundaries in
     FIELDS (GeoJSON, GeoPackage, Shapefile or zipped Shapefile, FlatGeobuf).
 
@@ -127,7 +131,7 @@ def layout(fields, spacing, direction, setback, output, layer, id_field, crs, wo
         fields_path=fields, options=opts, layer=layer, id_field=id_field, crs=crs,
         work_crs=work_crs, keep_metric_crs=keep_metric_crs, exclude_path=exclude_path,
         exclude_layer=exclude_layer, exclude_setback=exclude_setback, outlet=outlet_value,
-        main_path=main_path, repair=repair))
+        main_path=main_path, repair=repair, survey_path=survey_path, survey_crs=survey_crs))
     write_layout(plan, out, plot_path=plot_path, geojson_dir=geojson_dir, overwrite=overwrite)
     for line in plan.reports:
         click.echo(f"drainplan: note: {line}", err=True)

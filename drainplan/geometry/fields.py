@@ -131,16 +131,18 @@ def drainable_regions(fields, setback, exclusions=None, exclusion_setbacks=None)
     empty = shapely.Polygon()
     insets = np.full(fields.shape, empty, dtype=object)
     if np.any(present):
-        insets[present] = shapely.buffer(fields[present].astype(object), -float(setback),
-                                         join_style="mitre") if setback > 0 \
-            else fields[present]
+        with np.errstate(divide="ignore", invalid="ignore"):   # degenerate spikes
+            insets[present] = shapely.buffer(fields[present].astype(object),
+                                             -float(setback), join_style="mitre") \
+                if setback > 0 else fields[present]
     regions = insets.copy()
     zones = np.full(fields.shape, empty, dtype=object)
     features = np.full(fields.shape, shapely.GeometryCollection(), dtype=object)
     if exclusions is not None and len(exclusions):
         ex = np.asarray(exclusions, dtype=object)
         sb = np.broadcast_to(np.asarray(exclusion_setbacks, float), ex.shape)
-        buffered = shapely.buffer(ex, sb, quad_segs=16)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            buffered = shapely.buffer(ex, sb, quad_segs=16)
         tree = shapely.STRtree(buffered)
         field_idx = np.flatnonzero(present)
         pairs = tree.query(fields[field_idx].astype(object), predicate="intersects")

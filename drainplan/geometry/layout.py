@@ -39,9 +39,10 @@ class LayoutOptions:
     ----------
     spacing : float
         Lateral spacing [m].
-    direction : float or "auto"
-        Bearing of the laterals, degrees clockwise from grid north, or "auto"
-        for the long axis of each field's minimum rotated rectangle.
+    direction : float, array of float or "auto"
+        Bearing of the laterals, degrees clockwise from grid north (one for all
+        fields or one per field), or "auto" for the long axis of each field's
+        minimum rotated rectangle.
     setback : float
         Headland setback from the field boundary [m].
     min_length : float
@@ -85,6 +86,8 @@ class Layout:
     junctions: np.ndarray
     connectors: np.ndarray
     connector_field: np.ndarray
+    connector_line: np.ndarray
+    connector_side: np.ndarray
     mains: np.ndarray
     outlets: np.ndarray
     unconnected: np.ndarray
@@ -134,6 +137,8 @@ class Layout:
 
 
 def _bearings(fields, direction):
+    if isinstance(direction, np.ndarray):      # one bearing per field
+        return np.where(np.isfinite(direction), direction % 180.0, long_axis_bearing(fields))
     if isinstance(direction, str):
         if direction != "auto":
             raise InputError(f"direction {direction!r}: give a bearing in degrees or 'auto'",
@@ -277,7 +282,7 @@ def layout_fields(fields, options, *, exclusions=None, exclusion_setbacks=None,
 
     conn = _connect(pieces, grid, mains, fields_filled, zones, features,
                     options.cross_setbacks)
-    lat, side, t_main, connected, connectors, con_field = conn
+    lat, side, t_main, connected, connectors, con_field, con_run = conn
     unconnected = lat.subset(~connected)
     lat = lat.subset(connected)
     side = side[connected]
@@ -331,7 +336,8 @@ def layout_fields(fields, options, *, exclusions=None, exclusion_setbacks=None,
         bearing=bearing, insets=insets, regions=regions,
         laterals=lat.geometries(), lateral_field=lat.field, lateral_line=lat.line,
         lateral_side=side, lateral_length=lat.length, junctions=junctions,
-        connectors=connectors, connector_field=con_field, mains=mains, outlets=outlets,
+        connectors=connectors, connector_field=con_field, connector_line=con_run[0],
+        connector_side=con_run[1], mains=mains, outlets=outlets,
         unconnected=unconnected.geometries(), unconnected_field=unconnected.field,
         dropped_count=dropped_count, dropped_length=dropped_length, spacing=L, notes=notes)
 
@@ -385,7 +391,7 @@ def _connect(pieces, grid, mains, fields, zones, features, cross_setbacks):
     m = pieces.field.size
     if m == 0:
         return pieces, np.empty(0, int), np.empty(0), np.zeros(0, bool), \
-            np.empty(0, dtype=object), np.empty(0, int)
+            np.empty(0, dtype=object), np.empty(0, int), (np.empty(0, int), np.empty(0, int))
     has_main = np.isfinite(tm)
     mid = 0.5 * (pieces.t0 + pieces.t1)
     side = np.where(mid < np.where(has_main, tm, np.inf), -1, 1)
@@ -420,15 +426,19 @@ def _connect(pieces, grid, mains, fields, zones, features, cross_setbacks):
             valid &= overlap <= 2 * _TOL
         ok[idx] = valid
         con_geoms, con_field, con_pos = cand, f_i, idx
+        con_line = pieces.line[order][idx]
+        con_side = side[order][idx]
     # connected if every link from the main out to the piece is valid
     bad = (~ok).astype(int)
     cum_bad = np.cumsum(bad)
     base = np.maximum.accumulate(np.where(grp_start, cum_bad - bad, 0))
     connected_o = (cum_bad - base) == 0
     connected = connected_o[inv]
+    con_run = (np.empty(0, int), np.empty(0, int))
     if con_geoms.size:
         keep = connected_o[con_pos]
         con_geoms, con_field = con_geoms[keep], con_field[keep]
+        con_run = (con_line[keep], con_side[keep])
     tm_out = np.where(has_main, tm, np.nan)
-    return pieces, side, tm_out, connected, con_geoms, con_field
+    return pieces, side, tm_out, connected, con_geoms, con_field, con_run
 

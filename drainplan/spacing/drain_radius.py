@@ -1,6 +1,6 @@
 """Effective drain radius: documented values for common pipes and envelopes.
 
-The table lives in ``drainplan/data/drain_radius.csv`` (one row a pipe type,
+The table lives in ``drainplan/templates/drain_radius.csv`` (one row a pipe type,
 with its source and a confidence tag: published, derived or memory); a user
 may always give a radius directly instead.
 """
@@ -13,7 +13,7 @@ from importlib import resources
 
 import numpy as np
 
-from ._validate import as_float_arrays, require_positive, scalar_or_array
+from .._validate import as_float_arrays, require_positive, scalar_or_array
 from ..errors import InputError
 
 __all__ = ["drain_radius_table", "effective_radius", "ditch_radius", "square_envelope_radius"]
@@ -26,7 +26,7 @@ _SQUARE_CAPACITY = 0.5901702995
 def drain_radius_table():
     """Rows of the effective-radius table as a tuple of dicts (name, description,
     radius_m, source, confidence)."""
-    text = resources.files("drainplan").joinpath("data/drain_radius.csv").read_text("utf-8")
+    text = resources.files("drainplan").joinpath("templates/drain_radius.csv").read_text("utf-8")
     rows = []
     for row in csv.DictReader(text.splitlines()):
         row["radius_m"] = float(row["radius_m"])

@@ -15,7 +15,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..errors import InputError
-from ._validate import require_positive, scalar_or_array
+from .._validate import require_positive, scalar_or_array
 from .equivalent_depth import EQUIVALENT_DEPTH_METHODS, _equivalent_depth_unchecked
 from .ernst import ernst_profile_spacing, ernst_profile_terms
 from .glover_dumm import (FLOW_DEPTHS, INITIAL_SHAPES, glover_dumm_flow_depth,

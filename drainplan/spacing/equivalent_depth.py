@@ -17,7 +17,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import InputError
-from ._validate import (as_float_arrays, require_positive, require_nonnegative,
+from .._validate import (as_float_arrays, require_positive, require_nonnegative,
                         require_radius_below_barrier)
 
 __all__ = ["EQUIVALENT_DEPTH_METHODS", "molen_wesseling_f", "equivalent_depth",

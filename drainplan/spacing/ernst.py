@@ -12,7 +12,7 @@ from __future__ import annotations
 import numpy as np
 
 from .._solve import bracketed_root
-from ._validate import as_float_arrays, require_positive, require_nonnegative, scalar_or_array
+from .._validate import as_float_arrays, require_positive, require_nonnegative, scalar_or_array
 from ..errors import InputError
 
 __all__ = ["ernst_head", "ernst_spacing", "ernst_geometry_factor", "ernst_profile_spacing",

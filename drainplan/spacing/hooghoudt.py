@@ -10,7 +10,7 @@ from __future__ import annotations
 import numpy as np
 
 from .._solve import bracketed_root
-from ._validate import (as_float_arrays, require_positive, require_nonnegative,
+from .._validate import (as_float_arrays, require_positive, require_nonnegative,
                         require_radius_below_barrier, scalar_or_array)
 from .equivalent_depth import (EQUIVALENT_DEPTH_METHODS, _equivalent_depth_unchecked)
 from ..errors import InputError

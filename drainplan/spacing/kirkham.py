@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 
 from .._solve import bracketed_root
-from ._validate import (as_float_arrays, require_positive, require_radius_below_barrier,
+from .._validate import (as_float_arrays, require_positive, require_radius_below_barrier,
                         scalar_or_array)
 
 __all__ = ["kirkham_f", "kirkham_head", "kirkham_spacing"]

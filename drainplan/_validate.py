@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..errors import InputError
+from .errors import InputError
 
 
 def as_float_arrays(*values):

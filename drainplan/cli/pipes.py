@@ -1,0 +1,179 @@
+"""``drainplan pipes``: pipe sizes and grades for a layout."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import click
+
+from ..errors import InputError
+from .options import LENGTH, RATE, json_option
+
+
+@click.command(short_help="Size and grade the pipes of a layout.")
+@click.argument("layout_path", metavar="LAYOUT.gpkg", type=click.Path(dir_okay=False))
+@click.option("--coefficient", type=RATE, required=True,
+              help="Drainage coefficient for pipe capacity, e.g. '10 mm/d' or '3/8 in/d'. "
+                   "It often equals the steady design recharge, but practice may set it "
+                   "separately (e.g. higher where surface inlets feed the system).")
+@click.option("--survey", "survey_path", type=click.Path(dir_okay=False),
+              help="CSV of survey points: x, y, z (or lon, lat, z).")
+@click.option("--survey-crs", help="CRS of the survey x, y (default: the layout's metric "
+                                   "CRS; lon/lat columns need EPSG:4326).")
+@click.option("--survey-z-unit", type=click.Choice(["m", "ft", "cm"]), default="m",
+              show_default=True, help="Unit of the survey z values.")
+@click.option("--dem", "dem_path", type=click.Path(dir_okay=False),
+              help="GeoTIFF DEM instead of survey points (needs drainplan[dem]).")
+@click.option("--material", type=click.Choice(["corrugated", "smooth", "clay"]),
+              default="corrugated", show_default=True, help="Pipe material.")
+@click.option("--series", type=click.Choice(["metric", "inch"]), default="metric",
+              show_default=True, help="Standard size series.")
+@click.option("--sizes", "sizes_path", type=click.Path(dir_okay=False),
+              help="An edited copy of templates/pipe_sizes.csv.")
+@click.option("--capacity-method", type=click.Choice(["manning", "power-law"]),
+              default="manning", show_default=True,
+              help="Manning full flow, or the drain-pipe power laws of metric practice.")
+@click.option("--capacity-factor", type=float, default=0.75, show_default=True,
+              help="Share of full capacity used (sediment allowance).")
+@click.option("--drain-depth", type=LENGTH, default="1.0 m", show_default=True,
+              help="Design depth of the laterals.")
+@click.option("--main-depth", type=LENGTH, help="Design depth of the main (default: drain "
+                                                "depth + 0.3 m).")
+@click.option("--min-grade", type=float, default=0.1, show_default=True,
+              help="Minimum grade, percent.")
+@click.option("--max-grade", type=float, default=5.0, show_default=True,
+              help="Maximum grade, percent.")
+@click.option("--min-cover", type=LENGTH, default="0.6 m", show_default=True,
+              help="Minimum cover over the pipe.")
+@click.option("--max-depth", type=LENGTH, default="2.0 m", show_default=True,
+              help="Maximum trench depth.")
+@click.option("--min-velocity", type=float, default=0.15, show_default=True,
+              help="Minimum full-flow velocity, m/s (0.43 where fine sand or silt can "
+                   "enter).")
+@click.option("--max-velocity", type=float, default=1.5, show_default=True,
+              help="Maximum full-flow velocity, m/s (1.07 sand ... 2.13 clay).")
+@click.option("--ditch-water-level", type=LENGTH,
+              help="Normal water level in the receiving ditch (elevation, same datum).")
+@click.option("--outfall-margin", type=LENGTH, default="0.10 m", show_default=True,
+              help="Free outfall: outlet invert above the ditch water level.")
+@click.option("--assumed-grade", type=float, default=0.1, show_default=True,
+              help="Grade used without elevations, percent.")
+@click.option("-o", "--output", type=click.Path(dir_okay=False), required=True,
+              help="Pipe schedule CSV to write.")
+@click.option("--gpkg", "gpkg_path", type=click.Path(dir_okay=False),
+              help="Also write the pipes with their attributes to a GeoPackage.")
+@click.option("--plot", "plot_path", type=click.Path(dir_okay=False),
+              help="Also write a PNG of the main's profile and the flattest lateral's.")
+@click.option("--overwrite", is_flag=True, help="Replace existing output files.")
+@json_option
+def pipes(layout_path, coefficient, survey_path, survey_crs, survey_z_unit, dem_path,
+          material, series, sizes_path, capacity_method, capacity_factor, drain_depth,
+          main_depth, min_grade, max_grade, min_cover, max_depth, min_velocity, max_velocity,
+          ditch_water_level, outfall_margin, assumed_grade, output, gpkg_path, plot_path,
+          overwrite, as_json):
+    """Size every lateral and main reach of the layout in LAYOUT.gpkg (written by
+    `drainplan layout`) and check grades, cover and the outlet on real elevations.
+
+    Example:
+
+        drainplan pipes layout.gpkg --coefficient "10 mm/d" --survey
+        demo_fields/survey.csv --survey-crs EPSG:4326 -o schedule.csv
+    """
+    from ..pipe_design import PipeOptions
+    from ..pipes_plan import PipesInputs, plan_pipes
+
+    if not Path(layout_path).exists():
+        raise InputError(f"layout file not found: {layout_path}", param="layout")
+    for t in [output, gpkg_path, plot_path]:
+        if t and Path(t).exists() and not overwrite:
+            raise InputError(f"{t} exists; use --overwrite to replace it", param="output")
+    for name, v in (("capacity_factor", capacity_factor), ("min_velocity", min_velocity),
+                    ("max_velocity", max_velocity)):
+        if not v > 0:
+            raise InputError(f"must be greater than 0, got {v:g}", param=name)
+    opts = PipeOptions(coefficient=coefficient, material=material, series=series,
+                       method=capacity_method, capacity_factor=capacity_factor,
+                       drain_depth=drain_depth, main_depth=main_depth,
+                       min_grade=min_grade / 100.0, max_grade=max_grade / 100.0,
+                       min_cover=min_cover, max_depth=max_depth, min_velocity=min_velocity,
+                       max_velocity=max_velocity, ditch_water_level=ditch_water_level,
+                       outfall_margin=outfall_margin, assumed_grade=assumed_grade / 100.0,
+                       sizes_path=sizes_path)
+    plan = plan_pipes(PipesInputs(layout_path=layout_path, options=opts,
+                                  survey_path=survey_path, survey_crs=survey_crs,
+                                  survey_z_unit=survey_z_unit, dem_path=dem_path))
+    write_pipes(plan, output, gpkg_path=gpkg_path, plot_path=plot_path, overwrite=overwrite)
+    d = plan.design
+    if as_json:
+        click.echo(json.dumps(pipes_summary(plan), indent=2, default=float))
+    else:
+        click.echo(_text(d, output))
+
+
+def write_pipes(plan, output, *, gpkg_path=None, plot_path=None, overwrite=False):
+    """Write the schedule CSV and optionally the GeoPackage and the profile PNG."""
+    from ..gisio import write_atomic, write_layers
+    from ..pipes_plan import schedule_csv
+
+    text = schedule_csv(plan.design)
+    write_atomic(output, lambda tmp: Path(tmp).write_text(text, encoding="utf-8"),
+                 overwrite=overwrite)
+    if gpkg_path:
+        write_layers(gpkg_path, plan.layers, overwrite=overwrite)
+    if plot_path:
+        write_profile_png(plan.design, plot_path, overwrite=overwrite)
+
+
+def write_profile_png(design, path, *, overwrite=False):
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    from ..gisio import write_atomic
+    from ..plots import profile_plot, save_figure
+
+    profiles = design.profiles
+    mains = [k for k in profiles if k.endswith("-M")]
+    lats = [r for r in design.reaches if r["kind"] == "lateral" and r["reach_id"] in profiles]
+    if not mains and not lats:
+        raise InputError("profiles need elevations (--survey or --dem)", param="plot")
+    fig, axes = plt.subplots(2, 1, figsize=(8, 6))
+    if mains:
+        longest = max(mains, key=lambda k: profiles[k]["chainage"][-1])
+        profile_plot(profiles[longest], ax=axes[0], title=f"main {longest}")
+    if lats:
+        flat = min(lats, key=lambda r: r["grade"])
+        profile_plot(profiles[flat["reach_id"]], ax=axes[1],
+                     title=f"lateral {flat['reach_id']} (least fall, grade "
+                           f"{flat['grade']:.2%})")
+    fig.tight_layout()
+    write_atomic(path, lambda tmp: save_figure(fig, tmp), overwrite=overwrite)
+    plt.close(fig)
+
+
+def pipes_summary(plan):
+    d = plan.design
+    return {"reaches": d.reaches, "takeoff": d.takeoff, "violations": d.violations,
+            "totals": d.totals, "notes": d.notes}
+
+
+def _text(d, output):
+    lines = ["Quantity take-off"]
+    for r in d.takeoff:
+        qty = f"{r['length_m']:>9.1f} m" if r["length_m"] else f"{r['count']:>9d} pcs"
+        lines.append(f"  {r['kind']:<8} {r['material']:<22} {r['size']:<36} {qty}")
+    t = d.totals
+    lines.append(f"drained area {t['drained_area_ha']:.2f} ha, outlet flow "
+                 f"{t['outlet_flow_l_s']:.1f} L/s; schedule written to {output}")
+    if d.violations:
+        lines.append(f"{len(d.violations)} problem(s):")
+        for v in d.violations[:30]:
+            where = f" at {v['chainage_m']:.0f} m" if v.get("chainage_m") else ""
+            lines.append(f"  - {v['reach_id']}{where}: {v['problem']} -> {v['fix']}")
+        if len(d.violations) > 30:
+            lines.append(f"  ... and {len(d.violations) - 30} more in the schedule")
+    for n in d.notes:
+        lines.append(f"note: {n}")
+    return "\n".join(lines)

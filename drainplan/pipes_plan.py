@@ -1,0 +1,251 @@
+"""Pipe design as a job: a layout GeoPackage and elevations in, a pipe schedule,
+a quantity take-off and attributed layers out."""
+
+from __future__ import annotations
+
+import csv
+import io
+from dataclasses import dataclass
+
+import numpy as np
+
+from .errors import InputError
+from .pipe_design import LateralRun, PipeDesign, PipeOptions, design_pipes
+
+__all__ = ["PipesInputs", "PipesPlan", "plan_pipes", "read_survey", "SCHEDULE_COLUMNS",
+           "schedule_csv"]
+
+SCHEDULE_COLUMNS = ["reach_id", "kind", "field_id", "from", "to", "length_m", "drained_area_ha",
+                    "flow_l_s", "grade", "material", "size", "inner_diameter_mm",
+                    "capacity_l_s", "velocity_m_s", "capacity_used_pct", "invert_up_m",
+                    "invert_down_m", "cover_min_m", "warnings"]
+
+
+@dataclass
+class PipesInputs:
+    layout_path: str
+    options: PipeOptions
+    survey_path: str | None = None
+    survey_crs: str | None = None
+    survey_z_unit: str = "m"
+    dem_path: str | None = None
+
+
+@dataclass
+class PipesPlan:
+    design: PipeDesign
+    layers: dict
+    work_crs: object
+    out_crs: object
+
+
+def read_survey(path, *, crs, z_unit="m", work_crs=None):
+    """Survey points from a CSV with columns x, y, z (or lon/lat, easting/northing,
+    elevation); returns (xy in work_crs, z in metres)."""
+    from pyproj import CRS, Transformer
+
+    from .units import convert
+
+    try:
+        with open(path, newline="", encoding="utf-8-sig") as fh:
+            rows = list(csv.DictReader(fh))
+    except FileNotFoundError:
+        raise InputError(f"survey file not found: {path}", param="survey") from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise InputError(f"cannot read survey file {path}: {exc}", param="survey") from None
+    if not rows:
+        raise InputError(f"survey file {path} holds no points", param="survey")
+    cols = {c.strip().lower(): c for c in rows[0].keys() if c}
+    pick = lambda *names: next((cols[n] for n in names if n in cols), None)  # noqa: E731
+    cx, cy = pick("x", "lon", "longitude", "easting", "e"), pick("y", "lat", "latitude",
+                                                                 "northing", "n")
+    cz = pick("z", "elevation", "elev", "height", "h")
+    missing = [n for n, c in (("x", cx), ("y", cy), ("z", cz)) if c is None]
+    if missing:
+        raise InputError(f"survey file {path} needs columns x, y and z (missing: "
+                         f"{', '.join(missing)})", param="survey")
+    try:
+        xy = np.array([[float(r[cx]), float(r[cy])] for r in rows])
+        z = np.array([float(r[cz]) if r[cz] not in ("", None) else np.nan for r in rows])
+    except (TypeError, ValueError):
+        raise InputError(f"survey file {path} holds a value that is not a number",
+                         param="survey") from None
+    if np.any(~np.isfinite(z)):
+        i = int(np.flatnonzero(~np.isfinite(z))[0])
+        raise InputError(f"survey file {path}: point {i + 1} has no z", param="survey")
+    z = np.asarray(convert(z, z_unit, "m"), float)
+    src = CRS.from_user_input(crs)
+    if work_crs is not None and src != work_crs:
+        tr = Transformer.from_crs(src, work_crs, always_xy=True)
+        xy = np.c_[tr.transform(xy[:, 0], xy[:, 1])]
+    return xy, z
+
+
+def _read_dem(path, work_crs):
+    try:
+        import rasterio
+        from rasterio.warp import Resampling, calculate_default_transform, reproject
+    except ImportError:
+        raise InputError("reading a DEM needs rasterio: pip install 'drainplan[dem]'",
+                         param="dem") from None
+    from .terrain import RasterSurface
+
+    try:
+        with rasterio.open(path) as ds:
+            if ds.crs is None:
+                raise InputError(f"DEM {path} has no CRS", param="dem")
+            band = ds.read(1).astype(float)
+            nodata = ds.nodata
+            if ds.crs != work_crs:
+                # reproject the grid to the layout's metric CRS
+                tr, w, h = calculate_default_transform(ds.crs, work_crs.to_wkt(), ds.width,
+                                                       ds.height, *ds.bounds)
+                out = np.full((h, w), np.nan)
+                reproject(band, out, src_transform=ds.transform, src_crs=ds.crs,
+                          src_nodata=nodata, dst_transform=tr, dst_crs=work_crs.to_wkt(),
+                          dst_nodata=np.nan, resampling=Resampling.bilinear)
+                return RasterSurface(out, tuple(tr)[:6], None)
+            return RasterSurface(band, tuple(ds.transform)[:6], nodata)
+    except rasterio.errors.RasterioIOError as exc:
+        raise InputError(f"cannot read DEM {path}: {exc}", param="dem") from None
+
+
+def plan_pipes(inp: PipesInputs) -> PipesPlan:
+    """Read a layout GeoPackage, build the network and design the pipes."""
+    import geopandas as gpd
+    import pyogrio
+    import shapely
+    from pyproj import CRS
+
+    from .gisio import read_layer
+    from .terrain import PointSurface, check_coverage
+
+    if inp.survey_path and inp.dem_path:
+        raise InputError("give either --survey or --dem, not both", param="survey")
+    fld, fcrs = read_layer(inp.layout_path, layer="field", what="layout", option="layout")
+    layers = {row[0] for row in pyogrio.list_layers(inp.layout_path)}
+    needed = {"field", "laterals", "mains"}
+    if not needed <= layers:
+        raise InputError(f"{inp.layout_path} is not a drainplan layout (layers "
+                         f"{', '.join(sorted(needed - layers))} missing)", param="layout")
+    work_crs = CRS.from_user_input(fld["work_crs"].iloc[0]) if "work_crs" in fld.columns \
+        else fld.estimate_utm_crs()
+    read = lambda name: gpd.read_file(inp.layout_path, layer=name,  # noqa: E731
+                                      engine="pyogrio").to_crs(work_crs)
+    fld = fld.to_crs(work_crs)
+    lat = read("laterals")
+    con = read("connectors") if "connectors" in layers else None
+    mains_gdf = read("mains")
+    outlets = read("outlets") if "outlets" in layers else None
+    spacing = float(lat["spacing_m"].iloc[0]) if len(lat) else float("nan")
+    if len(lat) == 0:
+        raise InputError(f"{inp.layout_path} holds no laterals", param="layout")
+
+    mains = {}
+    for _, r in mains_gdf.iterrows():
+        g = r.geometry
+        if g.geom_type == "MultiLineString":
+            g = shapely.line_merge(g)
+        mains[str(r["field_id"])] = g
+    runs = _runs(lat, con, mains, spacing)
+
+    surface = None
+    if inp.survey_path:
+        xy, z = read_survey(inp.survey_path, crs=inp.survey_crs or work_crs,
+                            z_unit=inp.survey_z_unit, work_crs=work_crs)
+        surface = PointSurface(xy, z)
+    elif inp.dem_path:
+        surface = _read_dem(inp.dem_path, work_crs)
+    if surface is not None:
+        check_coverage(surface, list(fld.geometry), list(fld["field_id"]))
+
+    recv = None
+    if outlets is not None and "kind" in outlets.columns:
+        given = outlets[outlets["kind"].astype(str).str.startswith("receiving")]
+        if len(given):
+            recv = tuple(given.geometry.iloc[0].coords[0])
+    design = design_pipes(runs, mains, inp.options, surface=surface, receiving_outlet=recv)
+    out_layers = _layers(design, runs, mains, work_crs, fcrs)
+    return PipesPlan(design, out_layers, work_crs, fcrs)
+
+
+def _runs(lat, con, mains, spacing):
+    """Lateral runs from the layout's pieces and connectors (one per lateral id)."""
+    import shapely
+
+    base = lat["lateral_id"].astype(str).str.replace(r"\.\d+$", "", regex=True)
+    runs = []
+    groups = {}
+    for rid, fid, g, length in zip(base, lat["field_id"].astype(str), lat.geometry,
+                                   lat["length_m"]):
+        e = groups.setdefault(rid, {"field": fid, "geoms": [], "perf": 0.0})
+        e["geoms"].append(g)
+        e["perf"] += float(length)
+    if con is not None and len(con) and "lateral_id" in con.columns:
+        for rid, g in zip(con["lateral_id"].astype(str), con.geometry):
+            if rid in groups:
+                groups[rid]["geoms"].append(g)
+    for rid in sorted(groups):
+        e = groups[rid]
+        main = mains.get(e["field"])
+        pts = shapely.get_coordinates(np.array(e["geoms"], dtype=object))
+        if main is None:
+            # single-junction field: the lateral drains to its own end nearest the outlet
+            j = pts[0]
+        else:
+            d = shapely.distance(shapely.points(pts), main)
+            j = pts[int(np.argmin(d))]
+            j = np.asarray(main.interpolate(main.project(shapely.Point(j))).coords[0])
+        far = pts[int(np.argmax(np.hypot(*(pts - j).T)))]
+        runs.append(LateralRun(rid, e["field"], shapely.LineString([far, j]), e["perf"],
+                               spacing))
+    return runs
+
+
+def _layers(design, runs, mains, work_crs, out_crs):
+    import geopandas as gpd
+    import shapely
+    from shapely.ops import substring
+
+    by_id = {r["reach_id"]: r for r in design.reaches}
+    cols = [c for c in SCHEDULE_COLUMNS if c not in ("kind",)]
+
+    def attrs(rows):
+        return {c: [r.get(c) for r in rows] for c in cols}
+
+    lat_rows = [by_id[r.run_id] for r in runs]
+    lat = gpd.GeoDataFrame(attrs(lat_rows), geometry=[r.line for r in runs], crs=work_crs)
+    main_rows = [r for r in design.reaches if r["kind"] == "main"]
+    geoms = []
+    for r in main_rows:
+        a = float(r["from"].split()[0])
+        b = float(r["to"].split()[0])
+        geoms.append(substring(mains[r["field_id"]], a, b))
+    mn = gpd.GeoDataFrame(attrs(main_rows), geometry=geoms, crs=work_crs)
+    viol = [v for v in design.violations if v["x"] is not None and np.isfinite(v["x"])]
+    vl = gpd.GeoDataFrame({k: [v[k] for v in viol] for k in
+                           ("reach_id", "chainage_m", "problem", "fix")},
+                          geometry=[shapely.Point(v["x"], v["y"]) for v in viol], crs=work_crs)
+    out = {"lateral_pipes": lat, "main_reaches": mn, "pipe_warnings": vl}
+    if out_crs != work_crs:
+        out = {k: v.to_crs(out_crs) for k, v in out.items()}
+    return out
+
+
+def schedule_csv(design):
+    """The pipe schedule as CSV text (one row per reach, SCHEDULE_COLUMNS)."""
+    buf = io.StringIO()
+    w = csv.DictWriter(buf, fieldnames=SCHEDULE_COLUMNS, extrasaction="ignore",
+                       lineterminator="\n")
+    w.writeheader()
+    for r in design.reaches:
+        w.writerow({k: _fmt(r.get(k)) for k in SCHEDULE_COLUMNS})
+    return buf.getvalue()
+
+
+def _fmt(v):
+    if v is None:
+        return ""
+    if isinstance(v, float):
+        return f"{v:.6g}" if abs(v) < 1e-2 else f"{v:.4f}".rstrip("0").rstrip(".")
+    return v

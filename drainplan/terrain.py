@@ -1,0 +1,163 @@
+"""Ground elevations: surfaces from survey points or a DEM, profiles along lines,
+and the plane that best fits a field.
+
+Coordinates are metres in the layout's projected CRS; elevations in metres.
+The surface objects take arrays of points and return arrays of elevations.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from .errors import InputError
+
+__all__ = ["PointSurface", "RasterSurface", "fit_plane", "fall_bearing", "sample_line",
+           "check_coverage"]
+
+
+@dataclass
+class PointSurface:
+    """Elevation surface from scattered survey points.
+
+    Linear interpolation on the Delaunay triangulation of the points
+    (scipy ``LinearNDInterpolator``); outside the triangulated hull the nearest
+    point's elevation is used (``NearestNDInterpolator``), so small gaps at the
+    field edge do not break the design. :func:`check_coverage` refuses fields
+    that lie largely outside the survey.
+    """
+
+    xy: np.ndarray
+    z: np.ndarray
+
+    def __post_init__(self):
+        from scipy.interpolate import LinearNDInterpolator, NearestNDInterpolator
+        from scipy.spatial import QhullError
+
+        self.xy = np.asarray(self.xy, float)
+        self.z = np.asarray(self.z, float)
+        if self.xy.ndim != 2 or self.xy.shape[1] != 2 or len(self.xy) != len(self.z):
+            raise InputError("survey points need x, y and z for every point", param="survey")
+        if len(self.z) < 3:
+            raise InputError("at least 3 survey points are needed", param="survey")
+        if not np.all(np.isfinite(self.xy)) or not np.all(np.isfinite(self.z)):
+            raise InputError("survey points hold missing or non-numeric values",
+                             param="survey")
+        try:
+            self._linear = LinearNDInterpolator(self.xy, self.z)
+        except QhullError:
+            raise InputError("survey points are all on one line; they cannot describe a "
+                             "surface", param="survey") from None
+        self._nearest = NearestNDInterpolator(self.xy, self.z)
+
+    def __call__(self, xy):
+        xy = np.asarray(xy, float).reshape(-1, 2)
+        z = self._linear(xy)
+        miss = np.isnan(z)
+        if np.any(miss):
+            z[miss] = self._nearest(xy[miss])
+        return z
+
+    def hull(self):
+        import shapely
+
+        return shapely.convex_hull(shapely.multipoints(self.xy))
+
+
+@dataclass
+class RasterSurface:
+    """Elevation surface from a DEM grid (bilinear interpolation).
+
+    ``transform`` is the affine transform (a, b, c, d, e, f) of the grid as in
+    rasterio: x = c + a col + b row, y = f + d col + e row, at pixel corners.
+    """
+
+    values: np.ndarray
+    transform: tuple
+    nodata: float | None = None
+
+    def __post_init__(self):
+        from scipy.interpolate import RegularGridInterpolator
+
+        a, b, c, d, e, f = self.transform[:6]
+        if b != 0 or d != 0:
+            raise InputError("rotated DEM grids are not supported", param="dem")
+        v = np.asarray(self.values, float)
+        if self.nodata is not None:
+            v = np.where(v == self.nodata, np.nan, v)
+        self.values = v
+        rows, cols = v.shape
+        xs = c + a * (np.arange(cols) + 0.5)
+        ys = f + e * (np.arange(rows) + 0.5)
+        ox = np.argsort(xs)
+        oy = np.argsort(ys)
+        self._interp = RegularGridInterpolator((ys[oy], xs[ox]), v[np.ix_(oy, ox)],
+                                               bounds_error=False, fill_value=np.nan)
+        self._bounds = (min(xs), min(ys), max(xs), max(ys))
+
+    def __call__(self, xy):
+        xy = np.asarray(xy, float).reshape(-1, 2)
+        return self._interp(xy[:, ::-1])
+
+    def hull(self):
+        import shapely
+
+        valid = np.isfinite(self.values)
+        if not np.any(valid):
+            return shapely.Polygon()
+        return shapely.box(*self._bounds)
+
+
+def check_coverage(surface, fields, names, *, max_outside=0.05):
+    """Refuse fields whose area lies largely outside the surveyed area.
+
+    Raises
+    ------
+    InputError
+        Naming the first field with more than ``max_outside`` of its area
+        outside the survey's hull (or with elevations missing).
+    """
+    import shapely
+
+    hull = surface.hull()
+    for g, name in zip(fields, names):
+        if g is None:
+            continue
+        outside = shapely.area(shapely.difference(g, hull)) / shapely.area(g)
+        if outside > max_outside:
+            raise InputError(f"the elevations do not cover field {name!r}: {outside:.0%} "
+                             "of its area lies outside the surveyed area", param="survey")
+        pts = shapely.get_coordinates(g)
+        if np.any(~np.isfinite(surface(pts))):
+            raise InputError(f"the elevation surface has no value at part of field {name!r}",
+                             param="survey")
+
+
+def fit_plane(xy, z):
+    """Least-squares plane z = a x + b y + c; returns (a, b, c)."""
+    xy = np.asarray(xy, float)
+    A = np.c_[xy, np.ones(len(xy))]
+    coef, *_ = np.linalg.lstsq(A, np.asarray(z, float), rcond=None)
+    return tuple(coef)
+
+
+def fall_bearing(a, b):
+    """Bearing (degrees clockwise from north) of steepest descent of z = a x + b y + c,
+    and the slope [m/m]."""
+    bearing = np.degrees(np.arctan2(-a, -b)) % 360.0
+    return float(bearing), float(np.hypot(a, b))
+
+
+def sample_line(line, step=5.0):
+    """Points along a LineString every ``step`` metres (ends included).
+
+    Returns ``(chainage, xy)``.
+    """
+    import shapely
+
+    length = line.length
+    n = max(2, int(np.ceil(length / step)) + 1)
+    ch = np.linspace(0.0, length, n)
+    pts = shapely.line_interpolate_point(line, ch)
+    return ch, shapely.get_coordinates(pts)
