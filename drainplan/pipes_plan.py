@@ -23,7 +23,7 @@ SCHEDULE_COLUMNS = ["reach_id", "kind", "field_id", "from", "to", "length_m", "d
 
 @dataclass
 class PipesInputs:
-    layout_path: str
+    layout_path: str | None
     options: PipeOptions
     survey_path: str | None = None
     survey_crs: str | None = None
@@ -114,11 +114,9 @@ def plan_pipes(inp: PipesInputs) -> PipesPlan:
     """Read a layout GeoPackage, build the network and design the pipes."""
     import geopandas as gpd
     import pyogrio
-    import shapely
     from pyproj import CRS
 
     from .gisio import read_layer
-    from .terrain import PointSurface, check_coverage
 
     if inp.survey_path and inp.dem_path:
         raise InputError("give either --survey or --dem, not both", param="survey")
@@ -130,25 +128,35 @@ def plan_pipes(inp: PipesInputs) -> PipesPlan:
                          f"{', '.join(sorted(needed - layers))} missing)", param="layout")
     work_crs = CRS.from_user_input(fld["work_crs"].iloc[0]) if "work_crs" in fld.columns \
         else fld.estimate_utm_crs()
-    read = lambda name: gpd.read_file(inp.layout_path, layer=name,  # noqa: E731
-                                      engine="pyogrio").to_crs(work_crs)
-    fld = fld.to_crs(work_crs)
-    lat = read("laterals")
-    con = read("connectors") if "connectors" in layers else None
-    mains_gdf = read("mains")
-    outlets = read("outlets") if "outlets" in layers else None
-    spacing = float(lat["spacing_m"].iloc[0]) if len(lat) else float("nan")
-    if len(lat) == 0:
+    frames = {name: gpd.read_file(inp.layout_path, layer=name, engine="pyogrio")
+              for name in ("field", "laterals", "connectors", "mains", "outlets")
+              if name in layers}
+    if len(frames["laterals"]) == 0:
         raise InputError(f"{inp.layout_path} holds no laterals", param="layout")
+    return pipes_from_layers(frames, work_crs, fcrs, inp)
 
+
+def pipes_from_layers(frames, work_crs, out_crs, inp):
+    """Design the pipes of layout layers (GeoDataFrames in any CRS)."""
+    import shapely
+
+    from .terrain import PointSurface, check_coverage
+
+    if inp.survey_path and inp.dem_path:
+        raise InputError("give either a survey or a DEM, not both", param="survey")
+    fr = {k: v.to_crs(work_crs) for k, v in frames.items() if v is not None}
+    fld, lat = fr["field"], fr["laterals"]
+    if len(lat) == 0:
+        raise InputError("the layout holds no laterals", param="layout")
+    con, outlets = fr.get("connectors"), fr.get("outlets")
+    spacing = float(lat["spacing_m"].iloc[0])
     mains = {}
-    for _, r in mains_gdf.iterrows():
+    for _, r in fr["mains"].iterrows():
         g = r.geometry
         if g.geom_type == "MultiLineString":
             g = shapely.line_merge(g)
         mains[str(r["field_id"])] = g
     runs = _runs(lat, con, mains, spacing)
-
     surface = None
     if inp.survey_path:
         xy, z = read_survey(inp.survey_path, crs=inp.survey_crs or work_crs,
@@ -157,16 +165,15 @@ def plan_pipes(inp: PipesInputs) -> PipesPlan:
     elif inp.dem_path:
         surface = _read_dem(inp.dem_path, work_crs)
     if surface is not None:
-        check_coverage(surface, list(fld.geometry), list(fld["field_id"]))
-
+        check_coverage(surface, list(fld.geometry), list(fld["field_id"].astype(str)))
     recv = None
     if outlets is not None and "kind" in outlets.columns:
         given = outlets[outlets["kind"].astype(str).str.startswith("receiving")]
         if len(given):
             recv = tuple(given.geometry.iloc[0].coords[0])
     design = design_pipes(runs, mains, inp.options, surface=surface, receiving_outlet=recv)
-    out_layers = _layers(design, runs, mains, work_crs, fcrs)
-    return PipesPlan(design, out_layers, work_crs, fcrs)
+    out_layers = _layers(design, runs, mains, work_crs, out_crs)
+    return PipesPlan(design, out_layers, work_crs, out_crs)
 
 
 def _runs(lat, con, mains, spacing):

@@ -129,3 +129,93 @@ def profile_plot(profile, *, ax=None, title=None, invert_label="pipe invert"):
     if title:
         ax.set_title(title, fontsize=10)
     return ax
+
+
+def cross_section(fig_data, *, ax=None):
+    """Soil profile between drains: surface, layers, barrier, drains and the steady
+    water table (depths below the surface, metres)."""
+    import matplotlib.pyplot as plt
+    from matplotlib.patches import Circle
+
+    if ax is None:
+        _, ax = plt.subplots(figsize=(8, 3.2))
+    L = fig_data["spacing"]
+    zd, zb = fig_data["drain_depth"], fig_data["barrier_depth"]
+    x = fig_data["x"]
+    xs = np.concatenate([x - L, x, x + L])
+    ax.axhspan(zb, zb + 0.4, color="#9c8f7a", alpha=0.8)
+    ax.text(1.5 * L, zb + 0.2, "barrier", ha="center", va="center", fontsize=8, color="white")
+    zi = fig_data.get("interface_depth")
+    if zi is not None and zi < zb:
+        ax.axhline(zi, color="#8a7a5a", linestyle=":", linewidth=1)
+        ax.text(-L + 0.02 * L, zi - 0.05, "layer interface", fontsize=7, color="#6b5a3a")
+    ax.axhline(0.0, color="#3b6e2a", linewidth=1.5)
+    if "steady_depth" in fig_data:
+        wt = np.concatenate([fig_data["steady_depth"]] * 3)
+        ax.plot(xs, wt, color="#2a6fb0", linewidth=1.6, label="steady water table (design)")
+        ax.axhline(fig_data["steady_target"], color="#2a6fb0", linestyle="--", linewidth=0.8,
+                   label="required water-table depth")
+    for k in (-1, 0, 1, 2):
+        ax.add_patch(Circle((k * L, zd), radius=max(0.03 * L / 10, 0.06), color="#1b1b1b"))
+    ax.annotate("", xy=(0, zd - 0.25), xytext=(L, zd - 0.25),
+                arrowprops=dict(arrowstyle="<->", color="#444444", lw=0.8))
+    ax.text(L / 2, zd - 0.3, f"L = {L:g} m", ha="center", va="bottom", fontsize=8)
+    ax.set_xlim(-L, 2 * L)
+    ax.set_ylim(zb + 0.4, -0.2)
+    ax.set_xlabel("distance (m)")
+    ax.set_ylabel("depth below surface (m)")
+    ax.legend(fontsize=7, loc="lower right", frameon=False)
+    ax.set_title(f"Cross-section: drains at {zd:g} m, barrier at {zb:g} m", fontsize=10)
+    return ax
+
+
+def falling_water_table(fig_data, *, axes=None):
+    """Falling water table: midway depth against time, and shapes between drains."""
+    import matplotlib.pyplot as plt
+
+    if axes is None:
+        _, axes = plt.subplots(1, 2, figsize=(8, 3))
+    a1, a2 = axes
+    t, mid = fig_data["falling_t"], fig_data["falling_mid_depth"]
+    a1.plot(t, mid, color="#2a6fb0", linewidth=1.6, label="midway water table")
+    a1.axhline(fig_data["falling_target"], color="#c0392b", linestyle="--", linewidth=0.8,
+               label="required depth")
+    a1.axvline(fig_data["falling_days"], color="#888888", linestyle=":", linewidth=0.8)
+    a1.set_ylim(fig_data["drain_depth"] + 0.1, -0.05)
+    a1.set_xlabel("time (d)")
+    a1.set_ylabel("depth below surface (m)")
+    a1.legend(fontsize=7, frameon=False)
+    a1.set_title("Midway depth over time (series)", fontsize=9)
+    x = fig_data["x"]
+    for (tt, prof), style in zip(sorted(fig_data["falling_profiles"].items()),
+                                 ("-", "--", ":")):
+        a2.plot(x, prof, color="#2a6fb0", linestyle=style, linewidth=1.3, label=f"t = {tt:g} d")
+    a2.set_ylim(fig_data["drain_depth"] + 0.1, -0.05)
+    a2.set_xlabel("distance from drain (m)")
+    a2.legend(fontsize=7, frameon=False)
+    a2.set_title("Water table between drains", fontsize=9)
+    return axes
+
+
+def key_profiles(design, *, axes=None):
+    """Long sections of a pipe design's longest main and its flattest lateral.
+
+    Returns the axes, or None when the design has no profiles (no elevations).
+    """
+    import matplotlib.pyplot as plt
+
+    prof = design.profiles
+    mains = [k for k in prof if k.endswith("-M")]
+    lats = [r for r in design.reaches if r["kind"] == "lateral" and r["reach_id"] in prof]
+    if not mains and not lats:
+        return None
+    if axes is None:
+        _, axes = plt.subplots(1, 2, figsize=(8, 2.8))
+    if mains:
+        k = max(mains, key=lambda m: prof[m]["chainage"][-1])
+        profile_plot(prof[k], ax=axes[0], title=f"main {k}")
+    if lats:
+        flat = min(lats, key=lambda r: r["grade"])
+        profile_plot(prof[flat["reach_id"]], ax=axes[1],
+                     title=f"lateral {flat['reach_id']} (least fall, grade {flat['grade']:.2%})")
+    return axes

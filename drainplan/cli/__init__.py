@@ -90,13 +90,13 @@ def cli(ctx, verbose, quiet):
 
 
 def _register():
+    from .design import design, init
     from .layout import layout
     from .pipes import pipes
     from .spacing import spacing
 
-    cli.add_command(spacing)
-    cli.add_command(layout)
-    cli.add_command(pipes)
+    for command in (spacing, layout, pipes, init, design):
+        cli.add_command(command)
 
 
 _register()

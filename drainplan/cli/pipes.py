@@ -88,6 +88,8 @@ def pipes(layout_path, coefficient, survey_path, survey_crs, survey_z_unit, dem_
     for t in [output, gpkg_path, plot_path]:
         if t and Path(t).exists() and not overwrite:
             raise InputError(f"{t} exists; use --overwrite to replace it", param="output")
+    if plot_path and not (survey_path or dem_path):
+        raise InputError("profiles need elevations (--survey or --dem)", param="plot")
     for name, v in (("capacity_factor", capacity_factor), ("min_velocity", min_velocity),
                     ("max_velocity", max_velocity)):
         if not v > 0:
@@ -132,22 +134,12 @@ def write_profile_png(design, path, *, overwrite=False):
     import matplotlib.pyplot as plt
 
     from ..gisio import write_atomic
-    from ..plots import profile_plot, save_figure
+    from ..plots import key_profiles, save_figure
 
-    profiles = design.profiles
-    mains = [k for k in profiles if k.endswith("-M")]
-    lats = [r for r in design.reaches if r["kind"] == "lateral" and r["reach_id"] in profiles]
-    if not mains and not lats:
-        raise InputError("profiles need elevations (--survey or --dem)", param="plot")
     fig, axes = plt.subplots(2, 1, figsize=(8, 6))
-    if mains:
-        longest = max(mains, key=lambda k: profiles[k]["chainage"][-1])
-        profile_plot(profiles[longest], ax=axes[0], title=f"main {longest}")
-    if lats:
-        flat = min(lats, key=lambda r: r["grade"])
-        profile_plot(profiles[flat["reach_id"]], ax=axes[1],
-                     title=f"lateral {flat['reach_id']} (least fall, grade "
-                           f"{flat['grade']:.2%})")
+    if key_profiles(design, axes=axes) is None:
+        plt.close(fig)
+        raise InputError("profiles need elevations (--survey or --dem)", param="plot")
     fig.tight_layout()
     write_atomic(path, lambda tmp: save_figure(fig, tmp), overwrite=overwrite)
     plt.close(fig)

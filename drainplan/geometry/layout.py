@@ -349,7 +349,6 @@ def _connect(pieces, grid, mains, fields, zones, features, cross_setbacks):
     main's t on their line, a connected flag, the connector geometries and
     their field index.
     """
-    n = fields.size
     # crossing of every scan line with its field's main
     a_list, b_list, o_list = [], [], []
     for f, m in enumerate(mains):

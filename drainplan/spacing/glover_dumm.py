@@ -12,7 +12,7 @@ from .equivalent_depth import EQUIVALENT_DEPTH_METHODS, _equivalent_depth_unchec
 from ..errors import InputError
 
 __all__ = ["INITIAL_SHAPES", "FLOW_DEPTHS", "DUMM_COEFFICIENT", "GLOVER_COEFFICIENT",
-           "reaction_factor", "glover_dumm_head", "glover_dumm_flow_depth",
+           "reaction_factor", "glover_dumm_head", "glover_dumm_profile", "glover_dumm_flow_depth",
            "glover_dumm_spacing"]
 
 #: Published first-term coefficient for Dumm's fourth-degree-parabola initial
@@ -134,6 +134,51 @@ def glover_dumm_head(*, time, initial_head, reaction_factor, shape="parabolic"):
             ratio[start:start + 4096] = np.exp(-n * n * blk) @ coef
         out[pos] = ratio
     return scalar_or_array(y0 * out.reshape(t.shape))
+
+
+def glover_dumm_profile(x, *, spacing, time, initial_head, reaction_factor,
+                        shape="parabolic"):
+    """Water-table height above drain level across the spacing at one time (full series).
+
+    Parameters
+    ----------
+    x : array_like
+        Distance from a drain, 0 <= x <= L [m].
+    spacing : float
+        Drain spacing L [m].
+    time : float
+        Time since the start of the drawdown [d].
+    initial_head, reaction_factor, shape
+        As in :func:`glover_dumm_head`.
+
+    Returns
+    -------
+    numpy.ndarray
+        y(x, t) [m]; at x = L/2 it equals :func:`glover_dumm_head`.
+
+    Examples
+    --------
+    >>> y = glover_dumm_profile([0.0, 20.0, 40.0], spacing=40.0, time=1.0, initial_head=1.0,
+    ...                         reaction_factor=1.0)
+    >>> [round(float(v), 4) for v in y]
+    [0.0, 0.4315, 0.0]
+    """
+    _check_choice(shape, INITIAL_SHAPES, "shape", "initial water-table shape")
+    x = np.asarray(x, float)
+    L, t, y0, a = (float(v) for v in (spacing, time, initial_head, reaction_factor))
+    if t <= 0:
+        xi = np.clip(x / L, 0.0, 1.0)
+        base = 1.0 - (1.0 - 2.0 * xi) ** 4 if shape == "parabolic" else np.where(
+            (xi > 0) & (xi < 1), 1.0, 0.0)
+        return y0 * base
+    n_max = int(np.ceil(np.sqrt(40.0 / (a * t)))) + 1
+    n = np.arange(1, n_max + 1, 2, dtype=float)
+    if shape == "parabolic":
+        coef = 192.0 / np.pi**5 * (n**2 * np.pi**2 - 8.0) / n**5
+    else:
+        coef = 4.0 / np.pi / n
+    amp = coef * np.exp(-n * n * a * t)
+    return y0 * (np.sin(np.pi * np.outer(np.clip(x, 0.0, L) / L, n)) @ amp)
 
 
 def glover_dumm_flow_depth(*, spacing, initial_head, depth_to_barrier, drain_radius,

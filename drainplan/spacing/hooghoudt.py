@@ -201,3 +201,46 @@ def hooghoudt_recharge(*, spacing, head, k_below, depth_to_barrier, drain_radius
     _check_profile(k1, k2, D, r0, equivalent_depth_method)
     d = _equivalent_depth_unchecked(L, D, r0, equivalent_depth_method)
     return scalar_or_array((8.0 * k2 * d * h + 4.0 * k1 * h * h) / (L * L))   # Eq. (1.1)
+
+
+def hooghoudt_water_table(x, *, spacing, recharge, k_below, depth_to_barrier, drain_radius,
+                          k_above=None, equivalent_depth_method="series"):
+    """Steady water-table height above drain level at distance x from a drain.
+
+    Parameters
+    ----------
+    x : array_like
+        Distance from a drain, 0 <= x <= L [m].
+    spacing, recharge, k_below, depth_to_barrier, drain_radius, k_above,
+    equivalent_depth_method
+        As in :func:`hooghoudt_spacing`.
+
+    Returns
+    -------
+    numpy.ndarray or float
+        h(x) [m], the positive root of ``4 K1 h^2 + 8 K2 d h = 4 q x (L - x)``.
+
+    Notes
+    -----
+    The Dupuit-Forchheimer water table over the equivalent layer d (Hooghoudt's
+    derivation before it is evaluated midway); at x = L/2 it gives the head of
+    :func:`hooghoudt_head`.
+
+    Examples
+    --------
+    >>> h = hooghoudt_water_table([0.0, 32.0], spacing=64.0, recharge=0.001, k_below=0.14,
+    ...                           depth_to_barrier=4.8, drain_radius=0.1)
+    >>> [round(float(v), 3) for v in h]
+    [0.0, 1.0]
+    """
+    if k_above is None:
+        k_above = k_below
+    x, L, q, k1, k2, D, r0 = as_float_arrays(x, spacing, recharge, k_above, k_below,
+                                             depth_to_barrier, drain_radius)
+    require_positive(L, "spacing", "drain spacing", "m")
+    _check_profile(k1, k2, D, r0, equivalent_depth_method)
+    d = _equivalent_depth_unchecked(L, D, r0, equivalent_depth_method)
+    c = 4.0 * q * np.clip(x, 0.0, L) * (L - np.clip(x, 0.0, L))
+    b = 8.0 * k2 * d
+    h = 2.0 * c / (b + np.sqrt(b * b + 16.0 * k1 * c))
+    return scalar_or_array(h)

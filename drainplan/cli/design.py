@@ -1,0 +1,89 @@
+"""``drainplan init`` and ``drainplan design``: project files and the whole job."""
+
+from __future__ import annotations
+
+import json
+import time
+from importlib import resources
+from pathlib import Path
+
+import click
+
+from .options import json_option
+
+
+@click.command(short_help="Write a commented starter project file.")
+@click.argument("directory", type=click.Path(file_okay=False))
+@click.option("--template", default="humid-field-crops", show_default=True,
+              type=click.Choice(["humid-field-crops", "vegetables", "irrigated-arid"]),
+              help="Starting criteria: humid field crops, high-value vegetables, or irrigated "
+                   "arid land with salinity control.")
+@click.option("--overwrite", is_flag=True, help="Replace an existing project.toml.")
+def init(directory, template, overwrite):
+    """Write DIRECTORY/project.toml from a template, ready to edit.
+
+    Example:
+
+        drainplan init myfarm --template vegetables
+    """
+    from ..gisio import write_atomic
+    from ..project import TEMPLATES
+
+    d = Path(directory)
+    d.mkdir(parents=True, exist_ok=True)
+    target = d / "project.toml"
+    text = resources.files("drainplan").joinpath(f"templates/{TEMPLATES[template]}").read_text(
+        "utf-8")
+    write_atomic(target, lambda tmp: Path(tmp).write_text(text, encoding="utf-8"),
+                 overwrite=overwrite)
+    click.echo(f"wrote {target}: put the field boundaries beside it (fields.geojson), edit "
+               f"the soil data and criteria, then run: drainplan design {target} -o "
+               f"{d / 'design'}")
+
+
+@click.command(short_help="Run the whole design from a project file.")
+@click.argument("project_path", metavar="PROJECT.toml", type=click.Path(dir_okay=False))
+@click.option("-o", "--output", required=True, type=click.Path(file_okay=False),
+              help="Folder for the design sheet, GeoPackage, schedule and summary.")
+@click.option("--overwrite", is_flag=True, help="Replace the contents of a non-empty folder.")
+@json_option
+@click.pass_context
+def design(ctx, project_path, output, overwrite, as_json):
+    """Spacing, depth, layout and pipes for the project in PROJECT.toml, written to a
+    folder: design_sheet.pdf, design.gpkg, pipe_schedule.csv and summary.json (every
+    number on the sheet).
+
+    Example:
+
+        drainplan design demo_fields/project.toml -o demo_design
+    """
+    from ..design import design as run_design
+    from ..outputs import check_output_folder, write_design_outputs
+    from ..project import load_project
+
+    quiet = bool(ctx.obj and ctx.obj.get("quiet"))
+    out = check_output_folder(output, overwrite=overwrite)     # before the work, not after
+    t0 = time.perf_counter()
+
+    def progress(step):
+        if not quiet:
+            click.echo(f"[{time.perf_counter() - t0:5.1f} s] {step}", err=True)
+
+    project = load_project(project_path)
+    result = run_design(project, progress=progress)
+    paths = write_design_outputs(result, out, overwrite=overwrite, progress=progress)
+    s = result.summary
+    if as_json:
+        click.echo(json.dumps({"output": str(out), "files": [str(p) for p in paths],
+                               "design": s["design"], "quantities": s["quantities"]},
+                              indent=2))
+        return
+    d, q = s["design"], s["quantities"]
+    click.echo(f"Design: drains {d['drain_depth_m']:g} m deep, {d['spacing_m']:g} m apart "
+               f"({d['method']}, {d['governing_criterion']} criterion governs)")
+    click.echo(f"Laterals {q['laterals']} ({q['lateral_length_m']:.0f} m), mains "
+               f"{q['main_length_m']:.0f} m, drained area {q['drained_area_ha']:.2f} ha, "
+               f"outlet flow {q['outlet_flow_l_s']:.1f} L/s")
+    if s["pipe_problems"]:
+        click.echo(f"{len(s['pipe_problems'])} pipe problem(s): see the design sheet")
+    click.echo(f"Design sheet: {out / 'design_sheet.pdf'}")

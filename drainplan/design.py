@@ -1,0 +1,383 @@
+"""The whole job: project file -> spacing and depth -> layout -> pipes -> one result.
+
+:func:`design` returns a :class:`DesignResult` whose ``summary`` holds every
+number that the design sheet shows (and that ``summary.json`` records), plus
+the layout and pipe objects and the arrays the figures are drawn from.
+"""
+
+from __future__ import annotations
+
+import math
+import warnings
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .errors import ConvergenceWarning, DrainplanError, InputError
+from .project import Project
+from .spacing import (METHODS, drain_spacing, glover_dumm_head, glover_dumm_profile,
+                      hooghoudt_water_table)
+
+__all__ = ["DesignResult", "design", "REFERENCES"]
+
+#: Full citations printed on the design sheet, by method.
+REFERENCES = {
+    "hooghoudt": [
+        "Hooghoudt, S.B. (1940). Algemeene beschouwing van het probleem van de "
+        "detailontwatering en de infiltratie door middel van parallel loopende drains, "
+        "greppels, slooten en kanalen. Bijdragen tot de kennis van eenige natuurkundige "
+        "grootheden van den grond 7. Rijksuitgeverij, 's-Gravenhage.",
+        "van der Molen, W.H. and Wesseling, J. (1991). A solution in closed form and a "
+        "series solution to replace the tables for the thickness of the equivalent layer "
+        "in Hooghoudt's drain spacing formula. Agricultural Water Management 19: 1-16.",
+        "Moody, W.T. (1966). Nonlinear differential equation of drain spacing. Journal of "
+        "the Irrigation and Drainage Division, ASCE 92(IR2): 1-9.",
+        "Ritzema, H.P. (1994). Subsurface flow to drains. In: Ritzema, H.P. (ed.), Drainage "
+        "Principles and Applications, ILRI Publication 16, 2nd ed., ch. 8. ILRI, "
+        "Wageningen.",
+    ],
+    "ernst": [
+        "Ernst, L.F. (1956). Calculation of the steady flow of groundwater in vertical "
+        "cross-sections. Netherlands Journal of Agricultural Science 4: 126-131.",
+    ],
+    "kirkham": [
+        "Kirkham, D. (1958). Seepage of steady rainfall through soil into drains. "
+        "Transactions, American Geophysical Union 39(5): 892-908.",
+    ],
+    "glover-dumm": [
+        "Dumm, L.D. (1954). Drain spacing formula. Agricultural Engineering 35: 726-730.",
+        "Dumm, L.D. (1964). Transient-flow concept in subsurface drainage: its validity and "
+        "use. Transactions of the ASAE 7(2): 142-146.",
+    ],
+    "pipes": [
+        "USDA-NRCS (2001). National Engineering Handbook, part 650, Engineering Field "
+        "Handbook, ch. 14: Water management (drainage). Washington, DC.",
+        "Cavelaars, J.C., Vlotman, W.F. and Spoor, G. (1994). Subsurface drainage systems. "
+        "In: Drainage Principles and Applications, ILRI Publication 16, 2nd ed., ch. 21.",
+    ],
+}
+
+
+@dataclass
+class DesignResult:
+    """Everything one design produced."""
+
+    project: Project
+    summary: dict
+    layout_plan: object
+    pipes_plan: object
+    figures: dict = field(default_factory=dict)
+
+
+def _soil_args(p):
+    s = p.soil
+    out = {"barrier_depth": s["barrier_depth"]}
+    if "k" in s:
+        out["k"] = s["k"]
+    else:
+        out["k_above"], out["k_below"] = s["k_above"], s["k_below"]
+    return out
+
+
+def _spacing(p, method, depth, k_scale=1.0, quiet=True):
+    """drain_spacing for the project at one depth; None where the method does not apply."""
+    s, c, d = p.soil, p.criteria, p.drains
+    args = dict(method=method, drain_depth=depth, drain_radius=d["radius"],
+                equivalent_depth_method=d.get("equivalent_depth", "series"), **_soil_args(p))
+    for key in ("k", "k_above", "k_below"):
+        if key in args:
+            args[key] = args[key] * k_scale
+    if method == "glover-dumm":
+        if "initial_depth" not in c:
+            return None
+        args.update(initial_depth=c["initial_depth"], final_depth=c["final_depth"],
+                    days=c["days"], drainable_porosity=s["drainable_porosity"],
+                    shape=c.get("initial_shape", "parabolic"),
+                    flow_depth=c.get("flow_depth", "equivalent"))
+        if "k" not in args:       # falling water table: K of the flow region below drains
+            args["k"] = args.pop("k_below")
+            args.pop("k_above")
+    else:
+        if "recharge" not in c:
+            return None
+        args.update(recharge=c["recharge"], water_table_depth=c["water_table_depth"])
+        if method == "ernst":
+            if "interface_depth" in s:
+                args["interface_depth"] = s["interface_depth"]
+            if "k_vertical" in s:
+                args["k_vertical"] = s["k_vertical"] * k_scale
+        if method == "kirkham" and "k" not in args:
+            return None
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", ConvergenceWarning)
+        try:
+            return drain_spacing(**args)
+        except InputError as exc:
+            if quiet:
+                return exc
+            raise
+
+
+def _f(v, nd=3):
+    if v is None:
+        return None
+    v = float(v)
+    return round(v, nd) if math.isfinite(v) else None
+
+
+def design(project, *, progress=None):
+    """Run the whole design for a loaded project.
+
+    Parameters
+    ----------
+    project : Project
+    progress : callable, optional
+        Called with a short text as each step starts.
+
+    Returns
+    -------
+    DesignResult
+    """
+    say = progress or (lambda text: None)
+    p = project
+    c, d = p.criteria, p.drains
+    steady_method = c.get("method", "hooghoudt")
+    if steady_method == "glover-dumm":
+        steady_method = None
+    has_steady = "recharge" in c
+    has_falling = "initial_depth" in c
+    if has_steady and steady_method is None:
+        raise InputError(f"{p.path.name}: criteria.method glover-dumm needs no steady "
+                         "recharge; choose hooghoudt, ernst or kirkham for the steady "
+                         "criterion", param="project")
+
+    say("drain spacing")
+    depths = sorted(d["depth"])
+    table = []
+    for z in depths:
+        row = {"drain_depth_m": z}
+        gov = []
+        if has_steady:
+            r = _spacing(p, steady_method, z, quiet=False) if len(depths) == 1 else \
+                _spacing(p, steady_method, z)
+            row["steady_spacing_m"] = _f(r.spacing) if not isinstance(r, Exception) else None
+            row["steady_note"] = str(r) if isinstance(r, Exception) else None
+            if row["steady_spacing_m"]:
+                gov.append(row["steady_spacing_m"])
+        if has_falling:
+            r = _spacing(p, "glover-dumm", z, quiet=len(depths) > 1)
+            row["falling_spacing_m"] = _f(r.spacing) if not isinstance(r, Exception) else None
+            row["falling_note"] = str(r) if isinstance(r, Exception) else None
+            if row["falling_spacing_m"]:
+                gov.append(row["falling_spacing_m"])
+        row["governing_spacing_m"] = min(gov) if gov else None
+        row["lateral_m_per_ha"] = _f(1e4 / row["governing_spacing_m"], 1) if gov else None
+        table.append(row)
+    usable = [r for r in table if r["governing_spacing_m"]]
+    if not usable:
+        notes = "; ".join(n for r in table for n in (r.get("steady_note"), r.get("falling_note"))
+                          if n)
+        raise DrainplanError("no drain depth gives a workable spacing" +
+                             (f" ({notes})" if notes else ""))
+    pick = usable[-1] if d.get("choose_depth", "deepest") == "deepest" else usable[0]
+    depth = pick["drain_depth_m"]
+    inc = d.get("spacing_increment", 1.0)
+    raw_spacing = pick["governing_spacing_m"]
+    spacing = max(inc, math.floor(raw_spacing / inc + 1e-9) * inc)
+    governing = ("steady" if has_steady and pick.get("steady_spacing_m") == raw_spacing
+                 else "falling")
+    chosen_method = steady_method if governing == "steady" else "glover-dumm"
+
+    # methods side by side and sensitivity at the chosen depth
+    comparison = []
+    main_result = None
+    for m in METHODS:
+        r = _spacing(p, m, depth)
+        if r is None:
+            continue
+        entry = {"method": m, "spacing_m": None, "equivalent_depth_m": None, "note": None}
+        if isinstance(r, Exception):
+            entry["note"] = str(r)
+        else:
+            entry["spacing_m"] = _f(r.spacing)
+            entry["equivalent_depth_m"] = _f(r.equivalent_depth)
+            if m == chosen_method:
+                main_result = r
+        comparison.append(entry)
+    sensitivity = []
+    for factor in (0.5, 1.0, 2.0):
+        r = _spacing(p, chosen_method, depth, k_scale=factor)
+        sensitivity.append({"k_factor": factor, "spacing_m": _f(r.spacing)
+                            if r is not None and not isinstance(r, Exception) else None})
+
+    # layout
+    say("layout")
+    from .geometry.layout import LayoutOptions
+    from .layout_plan import LayoutInputs, plan_layout
+
+    lo, fl = p.layout, p.fields
+    opts = LayoutOptions(spacing=spacing, direction=lo.get("direction", "auto"),
+                         setback=lo.get("setback", 0.0), min_length=lo.get("min_length", 10.0),
+                         offset=lo.get("offset"), main_side=lo.get("main_side", "auto"),
+                         cross_setbacks=lo.get("cross_setbacks", True))
+    outlet = fl.get("outlet")
+    if isinstance(outlet, str):
+        outlet = _outlet_from_file(outlet, fl)
+    lp = plan_layout(LayoutInputs(
+        fields_path=fl["file"], options=opts, layer=fl.get("layer"),
+        id_field=fl.get("id_attribute"), crs=fl.get("crs"), work_crs=fl.get("work_crs"),
+        exclude_path=fl.get("exclusions"), exclude_layer=fl.get("exclusions_layer"),
+        exclude_setback=fl.get("exclusion_setback", 15.0), outlet=outlet,
+        repair=lo.get("repair", False)))
+
+    # pipes
+    say("pipes")
+    from .pipe_design import PipeOptions
+    from .pipes_plan import PipesInputs, pipes_from_layers
+
+    pp = p.pipes
+    coef = pp.get("coefficient", c.get("recharge"))
+    if coef is None:
+        raise InputError(f"{p.path.name}: pipes.coefficient is required when no steady "
+                         "recharge is given", param="project")
+    popts = PipeOptions(
+        coefficient=coef, material=pp.get("material", "corrugated"),
+        series=pp.get("series", "metric"), method=pp.get("capacity_method", "manning"),
+        capacity_factor=pp.get("capacity_factor", 0.75), drain_depth=depth,
+        main_depth=pp.get("main_depth"), min_grade=pp.get("min_grade", 0.001),
+        max_grade=pp.get("max_grade", 0.05), min_cover=pp.get("min_cover", 0.6),
+        max_depth=pp.get("max_depth", 2.0), min_velocity=pp.get("min_velocity", 0.15),
+        max_velocity=pp.get("max_velocity", 1.5),
+        ditch_water_level=pp.get("ditch_water_level"),
+        outfall_margin=pp.get("outfall_margin", 0.10), sizes_path=pp.get("sizes"))
+    pipes_plan = pipes_from_layers(
+        lp.layers, lp.work_crs, lp.out_crs,
+        PipesInputs(layout_path=None, options=popts, survey_path=pp.get("survey"),
+                    survey_crs=pp.get("survey_crs"), survey_z_unit=pp.get("survey_z_unit", "m"),
+                    dem_path=pp.get("dem")))
+
+    say("water-table curves")
+    figures = _figure_data(p, depth, spacing, main_result, chosen_method)
+    summary = _summary(p, table, depth, spacing, raw_spacing, governing, chosen_method,
+                       comparison, sensitivity, lp, pipes_plan, main_result, coef)
+    return DesignResult(p, summary, lp, pipes_plan, figures)
+
+
+def _outlet_from_file(path, fl):
+    import geopandas as gpd
+
+    from .gisio import read_layer
+
+    pts, pcrs = read_layer(path, crs=fl.get("crs"), what="outlet", option="outlet")
+    _, fcrs = read_layer(fl["file"], layer=fl.get("layer"), crs=fl.get("crs"),
+                         what="fields", option="fields")
+    g = gpd.GeoSeries([pts.geometry.iloc[0]], crs=pcrs).to_crs(fcrs).iloc[0]
+    return (g.x, g.y)
+
+
+def _figure_data(p, depth, spacing, r, method):
+    """Arrays for the cross-section and the falling water-table figures."""
+    s, c = p.soil, p.criteria
+    D = s["barrier_depth"] - depth
+    k_below = s.get("k", s.get("k_below"))
+    k_above = s.get("k", s.get("k_above"))
+    x = np.linspace(0.0, spacing, 121)
+    out = {"x": x, "spacing": spacing, "drain_depth": depth,
+           "barrier_depth": s["barrier_depth"], "interface_depth": s.get("interface_depth"),
+           "radius": p.drains["radius"]}
+    if "recharge" in c:
+        h = hooghoudt_water_table(x, spacing=spacing, recharge=c["recharge"], k_below=k_below,
+                                  k_above=k_above, depth_to_barrier=D,
+                                  drain_radius=p.drains["radius"],
+                                  equivalent_depth_method=p.drains.get("equivalent_depth",
+                                                                       "series"))
+        out["steady_depth"] = depth - h
+        out["steady_target"] = c["water_table_depth"]
+    if "initial_depth" in c:
+        rr = _spacing(p, "glover-dumm", depth)
+        if rr is not None and not isinstance(rr, Exception):
+            from .spacing import glover_dumm_flow_depth, reaction_factor
+
+            y0 = depth - c["initial_depth"]
+            fd = glover_dumm_flow_depth(spacing=spacing, initial_head=y0, depth_to_barrier=D,
+                                        drain_radius=p.drains["radius"],
+                                        flow_depth=c.get("flow_depth", "equivalent"),
+                                        equivalent_depth_method=p.drains.get(
+                                            "equivalent_depth", "series"))
+            a = reaction_factor(k=k_below, flow_depth=fd,
+                                drainable_porosity=s["drainable_porosity"], spacing=spacing)
+            shape = c.get("initial_shape", "parabolic")
+            t = np.linspace(0.0, 2.0 * c["days"], 81)
+            out["falling_t"] = t
+            out["falling_mid_depth"] = depth - glover_dumm_head(time=t, initial_head=y0,
+                                                                reaction_factor=a, shape=shape)
+            out["falling_days"] = c["days"]
+            out["falling_target"] = c["final_depth"]
+            out["falling_profiles"] = {
+                float(tt): depth - glover_dumm_profile(x, spacing=spacing, time=tt,
+                                                       initial_head=y0, reaction_factor=a,
+                                                       shape=shape)
+                for tt in (0.0, c["days"] / 2.0, c["days"])}
+            out["reaction_factor"] = float(a)
+    return out
+
+
+def _summary(p, table, depth, spacing, raw_spacing, governing, method, comparison,
+             sensitivity, lp, pipes_plan, r, coef):
+    pd = pipes_plan.design
+    lat_by_size, main_by_size = {}, {}
+    for row in pd.reaches:
+        target = lat_by_size if row["kind"] == "lateral" else main_by_size
+        target[row["size"]] = target.get(row["size"], 0.0) + row["length_m"]
+    outlets = [
+        {"field_id": str(fid), "x": _f(g.x, 7), "y": _f(g.y, 7)}
+        for fid, kind, g in zip(lp.layers["outlets"]["field_id"], lp.layers["outlets"]["kind"],
+                                lp.layers["outlets"].geometry) if kind == "main outlet"]
+    inputs = {
+        "soil": {k: (v if isinstance(v, str) else _f(v, 6)) for k, v in p.soil.items()},
+        "criteria": {k: (v if isinstance(v, str) else _f(v, 6)) for k, v in p.criteria.items()},
+        "drains": {"depths_m": [_f(z, 4) for z in p.drains["depth"]],
+                   "radius_m": _f(p.drains["radius"], 4),
+                   "spacing_increment_m": _f(p.drains.get("spacing_increment", 1.0), 4),
+                   "equivalent_depth": p.drains.get("equivalent_depth", "series")},
+        "drainage_coefficient_m_per_d": _f(coef, 6),
+    }
+    return {
+        "project": {"file": p.path.name, **p.site},
+        "design": {
+            "method": method,
+            "governing_criterion": governing,
+            "drain_depth_m": _f(depth, 3),
+            "spacing_m": _f(spacing, 3),
+            "spacing_before_rounding_m": _f(raw_spacing, 3),
+            "equivalent_depth_m": _f(r.equivalent_depth) if r is not None else None,
+            "flow_depth_m": _f(r.flow_depth) if r is not None and r.flow_depth is not None
+            else None,
+            "notes": (list(r.notes) if r is not None else []) + (
+                ["falling water table computed with K below drain level "
+                 f"({p.soil['k_below']:g} m/d) for the two-layer profile"]
+                if method == "glover-dumm" and "k_below" in p.soil else []),
+        },
+        "depth_table": table,
+        "methods": comparison,
+        "sensitivity": sensitivity,
+        "inputs": inputs,
+        "fields": lp.per_field,
+        "quantities": {
+            **{k: _f(v, 3) if isinstance(v, float) else v for k, v in lp.totals.items()},
+            "lateral_length_by_size_m": {k: _f(v, 1) for k, v in lat_by_size.items()},
+            "main_length_by_size_m": {k: _f(v, 1) for k, v in main_by_size.items()},
+            "outlet_flow_l_s": _f(pd.totals["outlet_flow_l_s"], 3),
+            "drained_area_pipes_ha": _f(pd.totals["drained_area_ha"], 4),
+        },
+        "outlets": outlets,
+        "reaches": pd.reaches,
+        "takeoff": pd.takeoff,
+        "pipe_problems": pd.violations,
+        "layout_notes": lp.notes + lp.reports,
+        "pipe_notes": pd.notes,
+        "references": [ref for key in ([method] + (["hooghoudt"] if method != "hooghoudt"
+                                                  else []) + ["pipes"])
+                       for ref in REFERENCES.get(key, [])],
+        "work_crs": lp.work_crs.to_string(),
+    }

@@ -1,0 +1,215 @@
+"""Project files: a TOML description of a drainage job, read into plain dataclasses.
+
+Every key is checked: an unknown key is named with the nearest valid one, a
+missing required value is named, quantities may carry units as strings
+("0.6 m/d", "3/8 in/d", "90 cm") and are converted to SI here, and a
+malformed file is reported with its line number. Relative paths are taken
+from the project file's folder.
+"""
+
+from __future__ import annotations
+
+import difflib
+import tomllib
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from .errors import InputError
+from .units import parse_quantity
+
+__all__ = ["Project", "load_project", "SCHEMA", "TEMPLATES"]
+
+#: Starter project templates shipped in drainplan/templates.
+TEMPLATES = {
+    "humid-field-crops": "project_humid_field_crops.toml",
+    "vegetables": "project_vegetables.toml",
+    "irrigated-arid": "project_irrigated_arid.toml",
+}
+
+# section -> key -> (kind, required); kinds: text, path, length, rate, time, fraction,
+# number, bool, choice:<a|b>, direction, depths, radius, point
+SCHEMA = {
+    "site": {"name": ("text", True), "client": ("text", False), "location": ("text", False),
+             "designer": ("text", False), "date": ("text", False), "notes": ("text", False)},
+    "fields": {"file": ("path", True), "layer": ("text", False),
+               "id_attribute": ("text", False), "crs": ("text", False),
+               "work_crs": ("text", False), "exclusions": ("path", False),
+               "exclusions_layer": ("text", False), "exclusion_setback": ("length", False),
+               "outlet": ("point", False)},
+    "soil": {"k": ("rate", False), "k_above": ("rate", False), "k_below": ("rate", False),
+             "interface_depth": ("length", False), "k_vertical": ("rate", False),
+             "barrier_depth": ("length", True), "drainable_porosity": ("fraction", False),
+             "source": ("text", False)},
+    "criteria": {"method": ("choice:hooghoudt|ernst|kirkham|glover-dumm", False),
+                 "recharge": ("rate", False), "water_table_depth": ("length", False),
+                 "initial_depth": ("length", False), "final_depth": ("length", False),
+                 "days": ("time", False),
+                 "initial_shape": ("choice:parabolic|flat", False),
+                 "flow_depth": ("choice:equivalent|equivalent-plus-half-head", False),
+                 "source": ("text", False)},
+    "drains": {"depth": ("depths", True), "choose_depth": ("choice:deepest|shallowest", False),
+               "radius": ("radius", True), "spacing_increment": ("length", False),
+               "equivalent_depth": ("choice:series|moody", False)},
+    "layout": {"direction": ("direction", False), "setback": ("length", False),
+               "min_length": ("length", False), "offset": ("length", False),
+               "main_side": ("choice:auto|N|NE|E|SE|S|SW|W|NW", False),
+               "cross_setbacks": ("bool", False), "repair": ("bool", False)},
+    "pipes": {"coefficient": ("rate", False),
+              "material": ("choice:corrugated|smooth|clay", False),
+              "series": ("choice:metric|inch", False),
+              "capacity_method": ("choice:manning|power-law", False),
+              "capacity_factor": ("number", False), "survey": ("path", False),
+              "survey_crs": ("text", False), "survey_z_unit": ("choice:m|ft|cm", False),
+              "dem": ("path", False), "main_depth": ("length", False),
+              "min_grade": ("fraction", False), "max_grade": ("fraction", False),
+              "min_cover": ("length", False), "max_depth": ("length", False),
+              "min_velocity": ("number", False), "max_velocity": ("number", False),
+              "ditch_water_level": ("length", False), "outfall_margin": ("length", False),
+              "sizes": ("path", False)},
+    "report": {"units": ("choice:metric|us", False), "paper": ("choice:A4|Letter", False),
+               "logo": ("path", False), "title": ("text", False)},
+}
+_REQUIRED_SECTIONS = ("site", "fields", "soil", "drains")
+
+
+@dataclass
+class Project:
+    """A project file's content, SI units, paths resolved."""
+
+    path: Path
+    site: dict
+    fields: dict
+    soil: dict
+    criteria: dict
+    drains: dict
+    layout: dict
+    pipes: dict
+    report: dict
+    raw: dict = field(default_factory=dict, repr=False)
+
+
+def _suggest(word, options):
+    close = difflib.get_close_matches(word, list(options), n=1, cutoff=0.5)
+    return f" (did you mean {close[0]!r}?)" if close else ""
+
+
+def _convert(section, key, kind, value, base):
+    name = f"{section}.{key}"
+    if kind == "text":
+        if not isinstance(value, str):
+            raise InputError(f"{name} must be text, got {value!r}")
+        return value
+    if kind == "path":
+        if not isinstance(value, str):
+            raise InputError(f"{name} must be a file path in quotes, got {value!r}")
+        return str((base / value).resolve()) if not Path(value).is_absolute() else value
+    if kind == "bool":
+        if not isinstance(value, bool):
+            raise InputError(f"{name} must be true or false, got {value!r}")
+        return value
+    if kind == "number":
+        if isinstance(value, bool) or not isinstance(value, (int, float)):
+            raise InputError(f"{name} must be a number, got {value!r}")
+        return float(value)
+    if kind.startswith("choice:"):
+        choices = kind.split(":", 1)[1].split("|")
+        if value not in choices:
+            raise InputError(f"{name} must be one of {', '.join(choices)}; got {value!r}"
+                             + _suggest(str(value), choices))
+        return value
+    if kind == "direction":
+        if value == "auto":
+            return "auto"
+        if isinstance(value, bool) or not isinstance(value, (int, float)):
+            raise InputError(f"{name} must be a bearing in degrees or \"auto\", got {value!r}")
+        return float(value)
+    if kind == "depths":
+        values = value if isinstance(value, list) else [value]
+        if not values:
+            raise InputError(f"{name} needs at least one depth")
+        return [parse_quantity(v, "length", name=name) for v in values]
+    if kind == "radius":
+        from .spacing.drain_radius import drain_radius_table, effective_radius
+
+        names = [r["name"] for r in drain_radius_table()]
+        if isinstance(value, str) and value.strip() in names:
+            return effective_radius(value.strip())
+        return parse_quantity(value, "length", name=name)
+    if kind == "point":
+        if isinstance(value, list) and len(value) == 2 and all(
+                isinstance(v, (int, float)) and not isinstance(v, bool) for v in value):
+            return (float(value[0]), float(value[1]))
+        if isinstance(value, str):
+            return str((base / value).resolve()) if not Path(value).is_absolute() else value
+        raise InputError(f"{name} must be [x, y] in the fields' CRS or a point file path")
+    return parse_quantity(value, kind, name=name)
+
+
+def load_project(path):
+    """Read and validate a project file.
+
+    Raises
+    ------
+    InputError
+        One line naming the file and the key (or the line of a TOML error).
+    """
+    p = Path(path)
+    try:
+        text = p.read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise InputError(f"project file not found: {path}", param="project") from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise InputError(f"cannot read project file {path}: {exc}", param="project") from None
+    try:
+        raw = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(f"{p.name}: not valid TOML: {exc}", param="project") from None
+    base = p.parent.resolve()
+    out = {}
+    for section, content in raw.items():
+        if section not in SCHEMA:
+            raise InputError(f"{p.name}: unknown section [{section}]"
+                             + _suggest(section, SCHEMA), param="project")
+        if not isinstance(content, dict):
+            raise InputError(f"{p.name}: {section} must be a [section] of keys",
+                             param="project")
+    for section, keys in SCHEMA.items():
+        content = raw.get(section, {})
+        if section in _REQUIRED_SECTIONS and section not in raw:
+            raise InputError(f"{p.name}: section [{section}] is required", param="project")
+        values = {}
+        for key, value in content.items():
+            if key not in keys:
+                full = [f"{section}.{k}" for k in keys]
+                raise InputError(f"{p.name}: unknown key {section}.{key}"
+                                 + _suggest(f"{section}.{key}", full), param="project")
+            try:
+                values[key] = _convert(section, key, keys[key][0], value, base)
+            except InputError as exc:
+                raise InputError(f"{p.name}: {exc}", param="project") from None
+        for key, (_, required) in keys.items():
+            if required and key not in values:
+                raise InputError(f"{p.name}: {section}.{key} is required", param="project")
+        out[section] = values
+    soil = out["soil"]
+    if "k" not in soil and not ("k_above" in soil and "k_below" in soil):
+        raise InputError(f"{p.name}: soil.k (one layer) or soil.k_above and soil.k_below "
+                         "(two layers) is required", param="project")
+    crit = out["criteria"]
+    steady = "recharge" in crit or "water_table_depth" in crit
+    falling = any(k in crit for k in ("initial_depth", "final_depth", "days"))
+    if not steady and not falling:
+        raise InputError(f"{p.name}: [criteria] needs recharge and water_table_depth "
+                         "(steady) or initial_depth, final_depth and days (falling), or both",
+                         param="project")
+    for group, keys in (("steady", ("recharge", "water_table_depth")),
+                        ("falling", ("initial_depth", "final_depth", "days"))):
+        given = [k for k in keys if k in crit]
+        if given and len(given) != len(keys):
+            missing = [k for k in keys if k not in crit]
+            raise InputError(f"{p.name}: criteria.{missing[0]} is required with the "
+                             f"{group} criterion", param="project")
+    if falling and "drainable_porosity" not in soil:
+        raise InputError(f"{p.name}: soil.drainable_porosity is required with the falling "
+                         "criterion", param="project")
+    return Project(path=p, raw=raw, **out)

@@ -1,0 +1,138 @@
+"""`drainplan design` end to end: the sheet, the files, agreement, determinism, errors."""
+
+import hashlib
+import json
+import shutil
+import subprocess
+from pathlib import Path
+
+import pypdf
+import pytest
+
+ROOT = Path(__file__).resolve().parents[1]
+DEMO = ROOT / "demo_fields"
+
+
+@pytest.fixture(scope="module")
+def demo_design(tmp_path_factory):
+    from click.testing import CliRunner
+
+    from drainplan.cli import cli
+
+    out = tmp_path_factory.mktemp("design") / "out"
+    r = CliRunner().invoke(cli, ["design", str(DEMO / "project.toml"), "-o", str(out)])
+    assert r.exit_code == 0, r.output
+    return out, r
+
+
+def test_outputs_written(demo_design):
+    out, r = demo_design
+    for name in ("design_sheet.pdf", "design.gpkg", "pipe_schedule.csv", "summary.json"):
+        assert (out / name).stat().st_size > 0
+    assert "Design sheet:" in r.stdout
+    assert "drain spacing" in r.stderr and "design sheet" in r.stderr      # progress
+
+
+def test_pdf_content(demo_design):
+    out, _ = demo_design
+    s = json.loads((out / "summary.json").read_text())
+    reader = pypdf.PdfReader(out / "design_sheet.pdf")
+    assert len(reader.pages) >= 5
+    pages = [p.extract_text() for p in reader.pages]
+    text = " ".join(pages)
+    d = s["design"]
+    assert f"{d['spacing_m']:.1f} m" in pages[0]
+    assert f"{d['drain_depth_m']:.2f} m" in pages[0]
+    assert d["method"] in pages[0]
+    assert f"{s['quantities']['lateral_length_m']:.0f} m" in pages[0]
+    assert "Cross-section" in pages[1]
+    assert "Method and equations" in pages[2] and "References" in pages[2]
+    assert "Pipe schedule" in text and "Quantity take-off" in text
+    last = pages[-1]
+    for caution in ("Buried utilities", "Trench safety", "Wells, septic", "Wetlands",
+                    "Outlet rights", "qualified professional"):
+        assert caution in last
+
+
+@pytest.mark.skipif(shutil.which("pdftoppm") is None, reason="pdftoppm not installed")
+def test_pages_render(demo_design, tmp_path):
+    out, _ = demo_design
+    subprocess.run(["pdftoppm", "-r", "30", "-png", str(out / "design_sheet.pdf"),
+                    str(tmp_path / "p")], check=True)
+    pngs = sorted(tmp_path.glob("p-*.png"))
+    n = len(pypdf.PdfReader(out / "design_sheet.pdf").pages)
+    assert len(pngs) == n and all(p.stat().st_size > 1000 for p in pngs)
+
+
+def test_summary_agrees_with_separate_commands(demo_design, run, tmp_path):
+    out, _ = demo_design
+    s = json.loads((out / "summary.json").read_text())
+    depth = s["design"]["drain_depth_m"]
+    common = ["--drain-depth", str(depth), "--barrier-depth", "3.2 m", "--drain-radius",
+              "sock-4in", "--json"]
+    steady = json.loads(run("spacing", "--method", "hooghoudt", "--k-above", "0.8 m/d",
+                            "--k-below", "0.5 m/d", "--recharge", "3/8 in/d",
+                            "--water-table-depth", "0.3 m", *common).stdout)
+    falling = json.loads(run("spacing", "--method", "glover-dumm", "--k", "0.5 m/d",
+                             "--initial-depth", "0 m", "--final-depth", "0.3 m", "--days", "1",
+                             "--drainable-porosity", "0.06", *common).stdout)
+    row = next(r for r in s["depth_table"] if r["drain_depth_m"] == depth)
+    assert row["steady_spacing_m"] == pytest.approx(steady["spacing_m"], abs=1e-3)
+    assert row["falling_spacing_m"] == pytest.approx(falling["spacing_m"], abs=1e-3)
+    spacing = s["design"]["spacing_m"]
+    lay = tmp_path / "layout.gpkg"
+    r = run("layout", DEMO / "fields.geojson", "--spacing", str(spacing), "--direction", "auto",
+            "--setback", "6 m", "--min-length", "10 m", "--exclude", DEMO / "exclusions.geojson",
+            "--outlet", DEMO / "outlet.geojson", "-o", lay, "--json")
+    totals = json.loads(r.stdout)["totals"]
+    for key in ("laterals", "lateral_length_m", "main_length_m", "unconnected_pieces"):
+        assert s["quantities"][key] == pytest.approx(totals[key], abs=1e-3)
+    r = run("pipes", lay, "--coefficient", "1/2 in/d", "--survey", DEMO / "survey.csv",
+            "--survey-crs", "EPSG:4326", "--drain-depth", str(depth), "--series", "inch",
+            "--ditch-water-level", "298 m", "-o", tmp_path / "s.csv", "--json")
+    pipes = json.loads(r.stdout)
+    assert s["quantities"]["outlet_flow_l_s"] == pytest.approx(
+        pipes["totals"]["outlet_flow_l_s"], abs=1e-3)
+    assert [x["size"] for x in s["reaches"]] == [x["size"] for x in pipes["reaches"]]
+    assert (tmp_path / "s.csv").read_text() == (out / "pipe_schedule.csv").read_text()
+
+
+def test_deterministic(run, demo_design, tmp_path):
+    out, _ = demo_design
+    r = run("-q", "design", DEMO / "project.toml", "-o", tmp_path / "again")
+    assert r.exit_code == 0, r.output
+    for name in ("design_sheet.pdf", "design.gpkg", "pipe_schedule.csv", "summary.json",
+                 "plan.png"):
+        a = hashlib.sha256((out / name).read_bytes()).hexdigest()
+        b = hashlib.sha256((tmp_path / "again" / name).read_bytes()).hexdigest()
+        assert a == b, name
+
+
+def test_refuses_non_empty_output(run, tmp_path):
+    out = tmp_path / "o"
+    out.mkdir()
+    (out / "keep.txt").write_text("x")
+    r = run("design", DEMO / "project.toml", "-o", out)
+    assert r.exit_code == 2 and "--overwrite" in r.stderr
+    assert (out / "keep.txt").exists()
+
+
+@pytest.mark.parametrize("edit,text", [
+    (('file = "fields.geojson"', 'file = "missing.geojson"'), "fields file not found"),
+    (('k_above = "0.8 m/d"', 'k_above = "0.8 m/d'), "line"),
+    (("barrier_depth", "barrier_dept"), "did you mean"),
+    (('k_below = "0.5 m/d"', 'k_below = "0.5 m"'), "soil.k_below"),
+])
+def test_bad_project_through_cli(run, tmp_path, edit, text):
+    src = (DEMO / "project.toml").read_text().replace(*edit)
+    for name in ("fields.geojson", "exclusions.geojson", "outlet.geojson", "survey.csv"):
+        (tmp_path / name).symlink_to(DEMO / name)
+    (tmp_path / "project.toml").write_text(src)
+    out = tmp_path / "out"
+    r = run("design", tmp_path / "project.toml", "-o", out)
+    assert r.exit_code != 0
+    lines = [ln for ln in r.stderr.splitlines() if ln.startswith("drainplan: error")]
+    assert len(lines) == 1 and text in lines[0]
+    assert "Traceback" not in r.output
+    assert not out.exists()
+    assert not [p for p in tmp_path.iterdir() if p.name.startswith(".out")]
