@@ -219,7 +219,9 @@ def design(project, *, progress=None):
     opts = LayoutOptions(spacing=spacing, direction=lo.get("direction", "auto"),
                          setback=lo.get("setback", 0.0), min_length=lo.get("min_length", 10.0),
                          offset=lo.get("offset"), main_side=lo.get("main_side", "auto"),
-                         cross_setbacks=lo.get("cross_setbacks", True))
+                         cross_setbacks=lo.get("cross_setbacks", True),
+                         pattern=lo.get("pattern", "parallel"),
+                         herringbone_angle=lo.get("herringbone_angle", 45.0))
     outlet = fl.get("outlet")
     if isinstance(outlet, str):
         outlet = _outlet_from_file(outlet, fl)

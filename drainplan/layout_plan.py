@@ -19,8 +19,8 @@ from .geometry.layout import Layout, LayoutOptions, layout_fields
 
 __all__ = ["LayoutInputs", "LayoutPlan", "plan_layout", "LAYER_NAMES"]
 
-LAYER_NAMES = ("field", "laterals", "connectors", "mains", "outlets", "exclusions",
-               "unconnected")
+LAYER_NAMES = ("field", "laterals", "connectors", "junctions", "mains", "outlets",
+               "exclusions", "unconnected")
 _ID_CANDIDATES = ("field_id", "id", "name", "field", "fid_name")
 
 
@@ -199,6 +199,11 @@ def plan_layout(inp: LayoutInputs) -> LayoutPlan:
         "length_m": np.round([m.length for m in lay.mains[has_main]], 3),
         "kind": ["collector main"] * int(has_main.sum()),
     }, lay.mains[has_main])
+    layers["junctions"] = frame({
+        "field_id": list(fid[lay.junction_field]) if lay.junction_field.size else [],
+        "lateral_id": [_run_id(fid[f], line, side) for f, line, side in
+                       zip(lay.junction_field, lay.junction_line, lay.junction_side)],
+    }, lay.junctions)
     has_out = np.array([o is not None for o in lay.outlets])
     out_ids = list(fid[has_out])
     out_geoms = list(lay.outlets[has_out])

@@ -219,3 +219,30 @@ def key_profiles(design, *, axes=None):
         profile_plot(prof[flat["reach_id"]], ax=axes[1],
                      title=f"lateral {flat['reach_id']} (least fall, grade {flat['grade']:.2%})")
     return axes
+
+
+def spacing_against_k(rows, *, ax=None, units="metric", title=None):
+    """Spacing against hydraulic conductivity (log K axis).
+
+    Parameters
+    ----------
+    rows : sequence of (k [m/d], spacing [m])
+    units : {"metric", "us"}
+    """
+    import matplotlib.pyplot as plt
+
+    from .units import convert
+
+    if ax is None:
+        _, ax = plt.subplots(figsize=(6, 4))
+    k = np.array([r[0] for r in rows], float)
+    L = np.array([r[1] for r in rows], float)
+    ku, lu = ("in/h", "ft") if units == "us" else ("m/d", "m")
+    ax.plot(convert(k, "m/d", ku), convert(L, "m", lu), marker="o", color="#2a6fb0")
+    ax.set_xscale("log")
+    ax.set_xlabel(f"hydraulic conductivity K ({ku})")
+    ax.set_ylabel(f"drain spacing ({lu})")
+    ax.grid(True, which="both", color="#dddddd", linewidth=0.5)
+    if title:
+        ax.set_title(title, fontsize=10)
+    return ax

@@ -141,3 +141,12 @@ def test_version_and_help(run):
     assert run("--version").exit_code == 0
     r = run("spacing", "--help")
     assert r.exit_code == 0 and "--water-table-depth" in r.stdout
+
+
+def test_sweep_plot(run, tmp_path):
+    png = tmp_path / "k.png"
+    r = run(*BASE, "--sweep-k", "0.1:2:5", "--plot", png)
+    assert r.exit_code == 0, r.output
+    assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    r = run(*BASE, "--plot", tmp_path / "x.png")
+    assert r.exit_code == 2 and "--sweep-k" in r.stderr and not (tmp_path / "x.png").exists()

@@ -197,3 +197,36 @@ def test_layout_properties(poly, bearing, spacing, setback, well, well_setback):
     # pieces closer than the layout's 1 mm contact tolerance count as joined
     touching = shapely.union_all(parts[shapely.distance(parts, main) < 2e-3])
     assert np.all(shapely.distance(g, touching) < 2e-3)
+
+
+def test_herringbone():
+    field = shapely.box(0, 0, 600, 300)
+    lay = layout_fields([field], LayoutOptions(spacing=20, direction=90, pattern="herringbone",
+                                               herringbone_angle=45),
+                        outlet=(-10.0, 150.0))
+    main = lay.mains[0]
+    # the main runs through the middle along the direction, draining west to the outlet
+    xy = np.asarray(main.coords)
+    assert_allclose(xy[:, 1], 150.0)
+    assert xy[-1, 0] < xy[0, 0]
+    g = lay.laterals
+    d = shapely.get_coordinates(g).reshape(-1, 2, 2)
+    vec = d[:, 1] - d[:, 0]
+    angle = np.degrees(np.arctan2(np.abs(vec[:, 1]), np.abs(vec[:, 0])))
+    assert_allclose(angle, 45.0, atol=1e-6)             # 45 degrees to the main
+    north = d[:, :, 1].mean(axis=1) > 150
+    assert north.any() and (~north).any()               # laterals on both sides
+    assert np.all(shapely.distance(g, main) < 1e-6)     # every lateral joins the main
+    # they point upstream: each lateral's far end lies east of its junction
+    far = np.where((np.abs(d[:, 0, 1] - 150) > np.abs(d[:, 1, 1] - 150))[:, None],
+                   d[:, 0], d[:, 1])
+    near = np.where((np.abs(d[:, 0, 1] - 150) > np.abs(d[:, 1, 1] - 150))[:, None],
+                    d[:, 1], d[:, 0])
+    assert np.all(far[:, 0] > near[:, 0])
+    # perpendicular distance between neighbouring parallel laterals is the spacing
+    s = np.unique(np.round(d[north, 0] @ np.array([np.cos(np.radians(135)),
+                                                   -np.sin(np.radians(135))]), 6))
+    steps = np.diff(s) / 20.0
+    assert_allclose(steps, np.round(steps), atol=1e-6)
+    per, tot = lay.quantities([field.area])
+    assert per["laterals"][0] == lay.junctions.size

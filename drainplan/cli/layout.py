@@ -78,6 +78,12 @@ def _parse_outlet(value):
 @click.option("--main-side", default="auto", show_default=True,
               type=click.Choice(["auto", "N", "NE", "E", "SE", "S", "SW", "W", "NW"]),
               help="End of the laterals where the collector main runs.")
+@click.option("--pattern", type=click.Choice(["parallel", "herringbone"]), default="parallel",
+              show_default=True, help="Parallel laterals on an edge main, or a herringbone: "
+                                      "a main through the field along --direction with "
+                                      "laterals joining it from both sides.")
+@click.option("--herringbone-angle", type=float, default=45.0, show_default=True,
+              help="Angle between laterals and main in the herringbone, degrees (15-75).")
 @click.option("--main", "main_path", type=click.Path(dir_okay=False),
               help="A line layer drawn by the user to use as the main.")
 @click.option("--outlet", help="Outlet point: X,Y in the fields file's coordinates, or a "
@@ -98,7 +104,8 @@ def _parse_outlet(value):
 @json_option
 def layout(fields, spacing, direction, setback, output, layer, id_field, crs, work_crs,
            keep_metric_crs, exclude_path, exclude_layer, exclude_setback, min_length, offset,
-           main_side, main_path, outlet, cross_setbacks, repair, survey_path, survey_crs,
+           main_side, pattern, herringbone_angle, main_path, outlet, cross_setbacks, repair,
+           survey_path, survey_crs,
            plot_path, geojson_dir, overwrite, as_json):
     """Lay out parallel laterals and a collector main over the field boundaries in
     FIELDS (GeoJSON, GeoPackage, Shapefile or zipped Shapefile, FlatGeobuf).
@@ -126,7 +133,8 @@ def layout(fields, spacing, direction, setback, output, layer, id_field, crs, wo
         outlet_value = _outlet_in_fields_crs(outlet_value, fields, layer, crs)
     opts = LayoutOptions(spacing=spacing, direction=_parse_direction(direction),
                          setback=setback, min_length=min_length, offset=offset,
-                         main_side=main_side, cross_setbacks=cross_setbacks)
+                         main_side=main_side, cross_setbacks=cross_setbacks, pattern=pattern,
+                         herringbone_angle=herringbone_angle)
     plan = plan_layout(LayoutInputs(
         fields_path=fields, options=opts, layer=layer, id_field=id_field, crs=crs,
         work_crs=work_crs, keep_metric_crs=keep_metric_crs, exclude_path=exclude_path,

@@ -90,12 +90,15 @@ def _parse_sweep(text):
               help="Equivalent depth: exact series or Moody's approximation.")
 @click.option("--sweep-k", help="Also print spacing for K from FROM to TO in STEPS "
               "(geometric), e.g. '0.1:2:8'.")
+@click.option("--plot", "plot_path", type=click.Path(dir_okay=False),
+              help="With --sweep-k: also write the spacing-against-K curve as a PNG.")
+@click.option("--overwrite", is_flag=True, help="Replace an existing --plot file.")
 @units_option
 @json_option
 def spacing(method, k, k_above, k_below, interface_depth, k_vertical, geometry_factor,
             drain_depth, barrier_depth, drain_radius, recharge, water_table_depth,
             initial_depth, final_depth, days, drainable_porosity, initial_shape, flow_depth,
-            equivalent_depth_method, sweep_k, units, as_json):
+            equivalent_depth_method, sweep_k, plot_path, overwrite, units, as_json):
     """Drain spacing for one site.
 
     Steady methods (hooghoudt, ernst, kirkham) need --recharge and
@@ -118,16 +121,35 @@ def spacing(method, k, k_above, k_below, interface_depth, k_vertical, geometry_f
                   geometry_factor=geometry_factor)
     _check_method_options(inputs)
     sweep = _parse_sweep(sweep_k) if sweep_k else None
+    if plot_path and sweep is None:
+        raise InputError("--plot draws the --sweep-k curve; give --sweep-k too", param="plot")
     result = _solve(inputs)
     if not np.isfinite(result.spacing):
         raise DrainplanError("no drain spacing satisfies these inputs (the required spacing "
                              "would be narrower than the drains themselves); check K, the "
                              "recharge and the depths")
     sweep_rows = _sweep(inputs, sweep) if sweep is not None else None
+    if plot_path:
+        _write_plot(plot_path, sweep_rows, units, method, overwrite)
     if as_json:
         click.echo(json.dumps(_as_json(inputs, result, sweep_rows), indent=2))
     else:
         click.echo(_as_text(inputs, result, sweep_rows, units))
+
+
+def _write_plot(path, rows, units, method, overwrite):
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    from ..gisio import write_atomic
+    from ..plots import save_figure, spacing_against_k
+
+    fig, ax = plt.subplots(figsize=(6, 4))
+    spacing_against_k(rows, ax=ax, units=units, title=f"{_TITLES[method]}: spacing against K")
+    write_atomic(path, lambda tmp: save_figure(fig, tmp), overwrite=overwrite)
+    plt.close(fig)
 
 
 def _check_method_options(inputs):

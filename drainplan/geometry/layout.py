@@ -56,6 +56,13 @@ class LayoutOptions:
     cross_setbacks : bool
         Let non-perforated connectors cross exclusion setback zones (never the
         excluded feature itself).
+    pattern : {"parallel", "herringbone"}
+        Parallel laterals on one side of an edge main (gridiron), or a main
+        through the middle of the field along ``direction`` with laterals joining
+        it at ``herringbone_angle`` from both sides.
+    herringbone_angle : float
+        Angle between the laterals and the main in the herringbone pattern
+        [degrees], 15-75.
     """
 
     spacing: float
@@ -65,6 +72,8 @@ class LayoutOptions:
     offset: float | None = None
     main_side: str = "auto"
     cross_setbacks: bool = True
+    pattern: str = "parallel"
+    herringbone_angle: float = 45.0
 
 
 @dataclass
@@ -84,6 +93,9 @@ class Layout:
     lateral_side: np.ndarray
     lateral_length: np.ndarray
     junctions: np.ndarray
+    junction_field: np.ndarray
+    junction_line: np.ndarray
+    junction_side: np.ndarray
     connectors: np.ndarray
     connector_field: np.ndarray
     connector_line: np.ndarray
@@ -193,6 +205,37 @@ def _main_chain(poly, u, v, low_side):
     return shapely.LineString(coords)
 
 
+def _center_line(poly, bearing):
+    """Line along ``bearing`` through the centroid of a polygon, clipped to it (the
+    longest piece), as the main of a herringbone."""
+    if poly is None or shapely.is_empty(poly):
+        return None
+    u, _ = frame_axes(bearing)
+    c = np.asarray(shapely.centroid(poly).coords[0])
+    x0, y0, x1, y1 = poly.bounds
+    r = 2.0 * np.hypot(x1 - x0, y1 - y0) + 1.0
+    line = shapely.LineString([c - r * u, c + r * u])
+    parts = shapely.get_parts(shapely.intersection(line, poly))
+    parts = parts[shapely.get_type_id(parts) == 1]
+    if parts.size == 0:
+        return None
+    return parts[np.argmax(shapely.length(parts))]
+
+
+def _halves(region, center, bearing):
+    """The parts of ``region`` on the right (+1) and left (-1) of the main's line."""
+    u, v = frame_axes(bearing)
+    c = np.asarray(center.coords[0])
+    x0, y0, x1, y1 = region.bounds if not shapely.is_empty(region) else center.bounds
+    r = 2.0 * np.hypot(x1 - x0, y1 - y0) + np.hypot(*(c - (x0, y0))) + 1.0
+    out = []
+    for sign in (1, -1):
+        plane = shapely.Polygon([c - r * u, c + r * u, c + r * u + sign * r * v,
+                                 c - r * u + sign * r * v])
+        out.append((sign, shapely.intersection(region, plane)))
+    return out
+
+
 def _side_is_low(bearing, side, field_geom, outlet):
     """True when the main goes at the low-t end of the laterals (direction -u)."""
     u, _ = frame_axes(bearing)
@@ -234,6 +277,12 @@ def layout_fields(fields, options, *, exclusions=None, exclusion_setbacks=None,
     """
     fields = np.asarray(fields, dtype=object)
     n = fields.size
+    if options.pattern not in ("parallel", "herringbone"):
+        raise InputError(f"pattern {options.pattern!r} is unknown; choose parallel or "
+                         "herringbone", param="pattern")
+    if options.pattern == "herringbone" and not 15 <= options.herringbone_angle <= 75:
+        raise InputError("herringbone angle must lie between 15 and 75 degrees",
+                         param="herringbone_angle")
     L = float(options.spacing)
     if not (L > 0 and np.isfinite(L)):
         raise InputError("spacing must be greater than 0 m", param="spacing")
@@ -263,68 +312,105 @@ def layout_fields(fields, options, *, exclusions=None, exclusion_setbacks=None,
         raise InputError(f"spacing {L:g} m is larger than every field (widest across the "
                          f"laterals: {width[present].max():.1f} m)", param="spacing")
 
-    pieces, grid = scan_laterals(regions, bearing, L, offset=options.offset, n_fields=n)
-    # drop short pieces
-    short = pieces.length < options.min_length
-    dropped_count = np.bincount(pieces.field[short], minlength=n)
-    dropped_length = np.bincount(pieces.field[short], weights=pieces.length[short],
-                                 minlength=n)
-    pieces = pieces.subset(~short)
-
-    # mains: along the edge at one end of the laterals, or the user's line
+    # work areas: one per field (parallel pattern) or two halves (herringbone)
+    sub_owner, sub_region, sub_bearing, sub_main = [], [], [], []
     mains = np.full(n, None, dtype=object)
     for f in np.flatnonzero(present):
-        if user_mains is not None and user_mains[f] is not None:
-            mains[f] = user_mains[f]
+        user = user_mains[f] if user_mains is not None else None
+        if options.pattern == "herringbone":
+            center = user if user is not None else _center_line(insets[f], bearing[f])
+            mains[f] = center
+            if center is None:
+                continue
+            # laterals leave the main pointing upstream (away from the outlet), so each
+            # joins the main at an angle in the direction of flow
+            upstream = -1.0 if _side_is_low(bearing[f], "auto", fields_filled[f],
+                                            outlet) is False else 1.0
+            for sign, half in _halves(regions[f], center, bearing[f]):
+                sub_owner.append(f)
+                sub_region.append(half)
+                sub_bearing.append((bearing[f] + sign * upstream * options.herringbone_angle)
+                                   % 180.0)
+                sub_main.append(center)
         else:
-            low = _side_is_low(bearing[f], options.main_side, fields_filled[f], outlet)
-            mains[f] = _main_chain(insets[f], u_all[f], v_all[f], low)
+            if user is not None:
+                mains[f] = user
+            else:
+                low = _side_is_low(bearing[f], options.main_side, fields_filled[f], outlet)
+                mains[f] = _main_chain(insets[f], u_all[f], v_all[f], low)
+            sub_owner.append(f)
+            sub_region.append(regions[f])
+            sub_bearing.append(bearing[f])
+            sub_main.append(mains[f])
+    sub_owner = np.array(sub_owner, dtype=int)
+    m = sub_owner.size
+    sub_region = np.array(sub_region + [None], dtype=object)[:m]
+    sub_main = np.array(sub_main + [None], dtype=object)[:m]
+    sub_bearing = np.array(sub_bearing, dtype=float)
 
-    conn = _connect(pieces, grid, mains, fields_filled, zones, features,
-                    options.cross_setbacks)
-    lat, side, t_main, connected, connectors, con_field, con_run = conn
+    pieces, grid = scan_laterals(sub_region, sub_bearing, L, offset=options.offset,
+                                 n_fields=m)
+    short = pieces.length < options.min_length
+    dropped_count = np.bincount(sub_owner[pieces.field[short]], minlength=n)
+    dropped_length = np.bincount(sub_owner[pieces.field[short]],
+                                 weights=pieces.length[short], minlength=n)
+    pieces = pieces.subset(~short)
+
+    conn = _connect(pieces, grid, sub_main, fields_filled[sub_owner], zones[sub_owner],
+                    features[sub_owner], options.cross_setbacks)
+    lat, side, t_main, connected, connectors, con_sub, con_run = conn
     unconnected = lat.subset(~connected)
     lat = lat.subset(connected)
     side = side[connected]
     t_m = t_main[connected]
+    # lines numbered across each field (the second half of a herringbone continues)
+    line_offset = np.zeros(m, dtype=int)
+    for f in np.unique(sub_owner):
+        idx = np.flatnonzero(sub_owner == f)
+        line_offset[idx] = np.concatenate([[0], np.cumsum(grid.n_lines[idx])[:-1]])
 
     # junctions: one per lateral run (field, line, side)
     junctions = np.empty(0, dtype=object)
+    jfield = jline = jside = np.empty(0, int)
     if lat.field.size:
-        key, first = np.unique(np.stack([lat.field, lat.line, side], axis=1), axis=0,
-                               return_index=True)
-        jf = lat.field[first]
-        jp = lat.s[first][:, None] * v_all[jf] + t_m[first][:, None] * u_all[jf]
+        _, first = np.unique(np.stack([lat.field, lat.line, side], axis=1), axis=0,
+                             return_index=True)
+        js = lat.field[first]
+        jp = lat.s[first][:, None] * grid.v[js] + t_m[first][:, None] * grid.u[js]
         junctions = shapely.points(jp)
-        jfield = jf
-    else:
-        jfield = np.empty(0, int)
+        jfield = sub_owner[js]
+        jline = lat.line[first] + line_offset[js]
+        jside = side[first]
+    lat_field = sub_owner[lat.field]
+    lat_line = lat.line + line_offset[lat.field]
+    con_field = sub_owner[con_sub] if con_sub.size else con_sub
+    con_line = con_run[0] + line_offset[con_sub] if con_sub.size else con_run[0]
 
     # trim each main to its junctions, orient it towards the outlet
     outlets = np.full(n, None, dtype=object)
     for f in range(n):
-        m = mains[f]
-        if m is None:
+        mf = mains[f]
+        if mf is None:
             continue
         js = junctions[jfield == f]
         if js.size == 0:
             mains[f] = None
             continue
-        pos = shapely.line_locate_point(m, js)
-        m = substring(m, pos.min(), pos.max()) if pos.max() > pos.min() else None
-        if m is None or shapely.length(m) < _TOL:
+        pos = shapely.line_locate_point(mf, js)
+        mf = substring(mf, pos.min(), pos.max()) if pos.max() > pos.min() else None
+        if mf is None or shapely.length(mf) < _TOL:
             mains[f] = None
             outlets[f] = js[0]
             continue
-        ends = np.asarray(m.coords)[[0, -1]]
+        ends = np.asarray(mf.coords)[[0, -1]]
         if outlet is not None:
             downstream = int(np.argmin(np.hypot(*(ends - np.asarray(outlet)).T)))
         else:
             downstream = 1
         if downstream == 0:
-            m = shapely.reverse(m)
-        mains[f] = m
-        outlets[f] = shapely.Point(np.asarray(m.coords)[-1])
+            mf = shapely.reverse(mf)
+        mains[f] = mf
+        outlets[f] = shapely.Point(np.asarray(mf.coords)[-1])
     if np.any(connected == 0):
         notes.append(f"{int((~connected).sum())} lateral piece(s) cannot reach the main "
                      "without leaving the field or crossing an exclusion; they need a "
@@ -334,11 +420,12 @@ def layout_fields(fields, options, *, exclusions=None, exclusion_setbacks=None,
                      "to the main across exclusion zones or bends of the boundary")
     return Layout(
         bearing=bearing, insets=insets, regions=regions,
-        laterals=lat.geometries(), lateral_field=lat.field, lateral_line=lat.line,
+        laterals=lat.geometries(), lateral_field=lat_field, lateral_line=lat_line,
         lateral_side=side, lateral_length=lat.length, junctions=junctions,
-        connectors=connectors, connector_field=con_field, connector_line=con_run[0],
-        connector_side=con_run[1], mains=mains, outlets=outlets,
-        unconnected=unconnected.geometries(), unconnected_field=unconnected.field,
+        junction_field=jfield, junction_line=jline, junction_side=jside,
+        connectors=connectors, connector_field=con_field,
+        connector_line=con_line, connector_side=con_run[1], mains=mains, outlets=outlets,
+        unconnected=unconnected.geometries(), unconnected_field=sub_owner[unconnected.field],
         dropped_count=dropped_count, dropped_length=dropped_length, spacing=L, notes=notes)
 
 
