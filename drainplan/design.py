@@ -69,8 +69,28 @@ class DesignResult:
     figures: dict = field(default_factory=dict)
 
 
-def _soil_args(p):
-    s = p.soil
+def _soil_at(p, depth):
+    """The soil as the methods see it with drains at ``depth``: one K, or K above and
+    below drain level (a layered profile is reduced there), barrier depth, porosity."""
+    s = dict(p.soil)
+    if "layers" in s:
+        from .soil import reduce_layers
+
+        ly = s.pop("layers")
+        c = p.criteria
+        zone = (c["initial_depth"], c["final_depth"]) if "initial_depth" in c else None
+        mus = [x.get("drainable_porosity") for x in ly]
+        r = reduce_layers([x["thickness"] for x in ly], [x["k"] for x in ly], depth,
+                          drainable_porosity=None if None in mus else mus,
+                          barrier_depth=s.get("barrier_depth"), porosity_zone=zone)
+        s["k_above"], s["k_below"] = r["k_above"], r["k_below"]
+        s["barrier_depth"] = r["barrier_depth"]
+        if r["drainable_porosity"] is not None and "drainable_porosity" not in p.soil:
+            s["drainable_porosity"] = r["drainable_porosity"]
+    return s
+
+
+def _soil_args(s):
     out = {"barrier_depth": s["barrier_depth"]}
     if "k" in s:
         out["k"] = s["k"]
@@ -81,9 +101,10 @@ def _soil_args(p):
 
 def _spacing(p, method, depth, k_scale=1.0, quiet=True):
     """drain_spacing for the project at one depth; None where the method does not apply."""
-    s, c, d = p.soil, p.criteria, p.drains
+    c, d = p.criteria, p.drains
+    s = _soil_at(p, depth)
     args = dict(method=method, drain_depth=depth, drain_radius=d["radius"],
-                equivalent_depth_method=d.get("equivalent_depth", "series"), **_soil_args(p))
+                equivalent_depth_method=d.get("equivalent_depth", "series"), **_soil_args(s))
     for key in ("k", "k_above", "k_below"):
         if key in args:
             args[key] = args[key] * k_scale
@@ -279,14 +300,16 @@ def _outlet_from_file(path, fl):
 
 def _figure_data(p, depth, spacing, r, method):
     """Arrays for the cross-section and the falling water-table figures."""
-    s, c = p.soil, p.criteria
+    s, c = _soil_at(p, depth), p.criteria
     D = s["barrier_depth"] - depth
     k_below = s.get("k", s.get("k_below"))
     k_above = s.get("k", s.get("k_above"))
     x = np.linspace(0.0, spacing, 121)
     out = {"x": x, "spacing": spacing, "drain_depth": depth,
            "barrier_depth": s["barrier_depth"], "interface_depth": s.get("interface_depth"),
-           "radius": p.drains["radius"]}
+           "radius": p.drains["radius"],
+           "layer_bottoms": (list(np.cumsum([ly["thickness"] for ly in p.soil["layers"]]))
+                             if "layers" in p.soil else None)}
     if "recharge" in c:
         h = hooghoudt_water_table(x, spacing=spacing, recharge=c["recharge"], k_below=k_below,
                                   k_above=k_above, depth_to_barrier=D,
@@ -324,6 +347,21 @@ def _figure_data(p, depth, spacing, r, method):
     return out
 
 
+def _soil_notes(p, depth, method):
+    s = _soil_at(p, depth)
+    notes = []
+    if "layers" in p.soil:
+        notes.append(f"{len(p.soil['layers'])}-layer profile reduced at the drain depth "
+                     f"{depth:g} m by thickness-weighted means: K above {s['k_above']:.3g} "
+                     f"m/d, K below {s['k_below']:.3g} m/d"
+                     + (f", drainable porosity {s['drainable_porosity']:.3g}"
+                        if s.get("drainable_porosity") is not None else ""))
+    if method == "glover-dumm" and "k_below" in s:
+        notes.append(f"falling water table computed with K below drain level "
+                     f"({s['k_below']:.3g} m/d)")
+    return notes
+
+
 def _summary(p, table, depth, spacing, raw_spacing, governing, method, comparison,
              sensitivity, lp, pipes_plan, r, coef):
     pd = pipes_plan.design
@@ -336,7 +374,12 @@ def _summary(p, table, depth, spacing, raw_spacing, governing, method, compariso
         for fid, kind, g in zip(lp.layers["outlets"]["field_id"], lp.layers["outlets"]["kind"],
                                 lp.layers["outlets"].geometry) if kind == "main outlet"]
     inputs = {
-        "soil": {k: (v if isinstance(v, str) else _f(v, 6)) for k, v in p.soil.items()},
+        "soil": {k: (v if isinstance(v, str) else
+                     [{kk: (vv if isinstance(vv, str) else _f(vv, 6)) for kk, vv in ly.items()}
+                      for ly in v] if isinstance(v, list) else _f(v, 6))
+                 for k, v in p.soil.items()},
+        "soil_at_drain_depth": {k: (v if isinstance(v, str) else _f(v, 6)) for k, v in
+                                _soil_at(p, depth).items()},
         "criteria": {k: (v if isinstance(v, str) else _f(v, 6)) for k, v in p.criteria.items()},
         "drains": {"depths_m": [_f(z, 4) for z in p.drains["depth"]],
                    "radius_m": _f(p.drains["radius"], 4),
@@ -355,10 +398,7 @@ def _summary(p, table, depth, spacing, raw_spacing, governing, method, compariso
             "equivalent_depth_m": _f(r.equivalent_depth) if r is not None else None,
             "flow_depth_m": _f(r.flow_depth) if r is not None and r.flow_depth is not None
             else None,
-            "notes": (list(r.notes) if r is not None else []) + (
-                ["falling water table computed with K below drain level "
-                 f"({p.soil['k_below']:g} m/d) for the two-layer profile"]
-                if method == "glover-dumm" and "k_below" in p.soil else []),
+            "notes": (list(r.notes) if r is not None else []) + _soil_notes(p, depth, method),
         },
         "depth_table": table,
         "methods": comparison,

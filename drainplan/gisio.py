@@ -97,6 +97,9 @@ def read_layer(path, *, layer=None, crs=None, what="fields", option="FIELDS"):
         gdf = _gpd().read_file(src, layer=layer, engine="pyogrio")
     except Exception as exc:
         raise InputError(f"cannot read {what} file {path}: {_short(exc)}", param=option) from None
+    if not hasattr(gdf, "geometry") or "geometry" not in getattr(gdf, "columns", []):
+        raise InputError(f"{what} file {path} holds no geometries (a table without "
+                         "coordinates?)", param=option)
     bounds = np.asarray(gdf.total_bounds, float) if len(gdf) else np.full(4, np.nan)
     degrees = _looks_like_degrees(bounds)
     if gdf.crs is None:

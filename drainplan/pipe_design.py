@@ -157,6 +157,11 @@ def design_pipes(runs, mains, options, *, surface=None, receiving_outlet=None):
     q = options.coefficient
     reaches, violations, notes = [], [], []
     profiles = {}
+    method_text = ("Manning full-flow capacity, n by material and size "
+                   "(templates/manning_n.csv)" if options.method == "manning" else
+                   "drain-pipe power laws (laterals with uniform inflow)")
+    notes.append(f"capacities: {method_text}, of which {options.capacity_factor:.0%} is used "
+                 "(allowance for sediment and partial clogging)")
     if surface is None:
         notes.append(f"no elevations given: every pipe sized at the assumed grade "
                      f"{options.assumed_grade:.2%}; grades and cover are not checked")
@@ -255,7 +260,8 @@ def design_pipes(runs, mains, options, *, surface=None, receiving_outlet=None):
             row = {"reach_id": f"{fid}-M{k + 1:02d}", "kind": "main", "field_id": fid,
                    "from": f"{a:.1f} m", "to": f"{b:.1f} m", "length_m": float(b - a),
                    "drained_area_ha": up_area / 1e4, "flow_l_s": flow * 1000.0,
-                   "warnings": [], "_chainage": (a, b)}
+                   "warnings": [], "_chainage": (a, b),
+                   "_start": np.asarray(main.interpolate(a).coords[0])}
             if minv is None:
                 row["grade"] = options.assumed_grade
                 row.update(invert_up_m=None, invert_down_m=None, cover_min_m=None)
@@ -385,16 +391,19 @@ def _velocity_checks(row, options, violations):
     v = row.get("velocity_m_s")
     if v is None:
         return
+    xy = row.get("_start", (None, None))
+    x, y = (round(float(xy[0]), 3), round(float(xy[1]), 3)) if xy[0] is not None else (None,
+                                                                                        None)
     if v < options.min_velocity:
         row["warnings"].append(f"full-flow velocity {v:.3f} m/s below {options.min_velocity:.2f}")
-        violations.append({"reach_id": row["reach_id"], "chainage_m": 0.0, "x": None,
-                           "y": None, "problem": f"full-flow velocity {v:.3f} m/s is below "
+        violations.append({"reach_id": row["reach_id"], "chainage_m": 0.0, "x": x,
+                           "y": y, "problem": f"full-flow velocity {v:.3f} m/s is below "
                            f"the self-cleaning minimum {options.min_velocity:.2f} m/s",
                            "fix": "steepen the grade or use a smaller pipe if capacity allows"})
     if v > options.max_velocity:
         row["warnings"].append(f"full-flow velocity {v:.3f} m/s above {options.max_velocity:.2f}")
-        violations.append({"reach_id": row["reach_id"], "chainage_m": 0.0, "x": None,
-                           "y": None, "problem": f"full-flow velocity {v:.2f} m/s exceeds "
+        violations.append({"reach_id": row["reach_id"], "chainage_m": 0.0, "x": x,
+                           "y": y, "problem": f"full-flow velocity {v:.2f} m/s exceeds "
                            f"{options.max_velocity:.2f} m/s for this soil",
                            "fix": "flatten the grade (drop structure) or protect the "
                            "envelope and joints"})

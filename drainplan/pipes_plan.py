@@ -120,12 +120,17 @@ def plan_pipes(inp: PipesInputs) -> PipesPlan:
 
     if inp.survey_path and inp.dem_path:
         raise InputError("give either --survey or --dem, not both", param="survey")
-    fld, fcrs = read_layer(inp.layout_path, layer="field", what="layout", option="layout")
-    layers = {row[0] for row in pyogrio.list_layers(inp.layout_path)}
+    try:
+        layers = {row[0] for row in pyogrio.list_layers(inp.layout_path)}
+    except Exception:
+        raise InputError(f"cannot read {inp.layout_path} as a GeoPackage layout",
+                         param="layout") from None
     needed = {"field", "laterals", "mains"}
     if not needed <= layers:
         raise InputError(f"{inp.layout_path} is not a drainplan layout (layers "
-                         f"{', '.join(sorted(needed - layers))} missing)", param="layout")
+                         f"{', '.join(sorted(needed - layers))} missing; make one with "
+                         "drainplan layout)", param="layout")
+    fld, fcrs = read_layer(inp.layout_path, layer="field", what="layout", option="layout")
     work_crs = CRS.from_user_input(fld["work_crs"].iloc[0]) if "work_crs" in fld.columns \
         else fld.estimate_utm_crs()
     frames = {name: gpd.read_file(inp.layout_path, layer=name, engine="pyogrio")

@@ -145,6 +145,9 @@ def cross_section(fig_data, *, ax=None):
     xs = np.concatenate([x - L, x, x + L])
     ax.axhspan(zb, zb + 0.4, color="#9c8f7a", alpha=0.8)
     ax.text(1.5 * L, zb + 0.2, "barrier", ha="center", va="center", fontsize=8, color="white")
+    for zl in fig_data.get("layer_bottoms") or []:
+        if zl < zb - 1e-9:
+            ax.axhline(zl, color="#8a7a5a", linestyle=":", linewidth=0.8)
     zi = fig_data.get("interface_depth")
     if zi is not None and zi < zb:
         ax.axhline(zi, color="#8a7a5a", linestyle=":", linewidth=1)

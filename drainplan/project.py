@@ -38,8 +38,8 @@ SCHEMA = {
                "outlet": ("point", False)},
     "soil": {"k": ("rate", False), "k_above": ("rate", False), "k_below": ("rate", False),
              "interface_depth": ("length", False), "k_vertical": ("rate", False),
-             "barrier_depth": ("length", True), "drainable_porosity": ("fraction", False),
-             "source": ("text", False)},
+             "barrier_depth": ("length", False), "drainable_porosity": ("fraction", False),
+             "layers": ("layers", False), "source": ("text", False)},
     "criteria": {"method": ("choice:hooghoudt|ernst|kirkham|glover-dumm", False),
                  "recharge": ("rate", False), "water_table_depth": ("length", False),
                  "initial_depth": ("length", False), "final_depth": ("length", False),
@@ -137,6 +137,25 @@ def _convert(section, key, kind, value, base):
         if isinstance(value, str) and value.strip() in names:
             return effective_radius(value.strip())
         return parse_quantity(value, "length", name=name)
+    if kind == "layers":
+        if not isinstance(value, list) or not value or not all(isinstance(v, dict)
+                                                               for v in value):
+            raise InputError(f"{name} must be a list of [[soil.layers]] tables")
+        allowed = {"name": "text", "thickness": "length", "k": "rate",
+                   "drainable_porosity": "fraction"}
+        layers = []
+        for i, layer in enumerate(value, start=1):
+            entry = {}
+            for k2, v2 in layer.items():
+                if k2 not in allowed:
+                    raise InputError(f"unknown key {name}[{i}].{k2}"
+                                     + _suggest(k2, allowed))
+                entry[k2] = _convert(section, f"{key}[{i}].{k2}", allowed[k2], v2, base)
+            for req in ("thickness", "k"):
+                if req not in entry:
+                    raise InputError(f"{name}[{i}].{req} is required")
+            layers.append(entry)
+        return layers
     if kind == "point":
         if isinstance(value, list) and len(value) == 2 and all(
                 isinstance(v, (int, float)) and not isinstance(v, bool) for v in value):
@@ -194,9 +213,23 @@ def load_project(path):
                 raise InputError(f"{p.name}: {section}.{key} is required", param="project")
         out[section] = values
     soil = out["soil"]
-    if "k" not in soil and not ("k_above" in soil and "k_below" in soil):
-        raise InputError(f"{p.name}: soil.k (one layer) or soil.k_above and soil.k_below "
-                         "(two layers) is required", param="project")
+    if "layers" in soil:
+        clash = [k for k in ("k", "k_above", "k_below") if k in soil]
+        if clash:
+            raise InputError(f"{p.name}: give soil.layers or soil.{clash[0]}, not both",
+                             param="project")
+        mus = [ly.get("drainable_porosity") for ly in soil["layers"]]
+        if "drainable_porosity" not in soil and any(m is not None for m in mus) and \
+                not all(m is not None for m in mus):
+            raise InputError(f"{p.name}: soil.layers: give drainable_porosity for every "
+                             "layer or for none", param="project")
+        if "barrier_depth" not in soil:
+            soil["barrier_depth"] = sum(ly["thickness"] for ly in soil["layers"])
+    elif "k" not in soil and not ("k_above" in soil and "k_below" in soil):
+        raise InputError(f"{p.name}: soil.k (one layer), soil.k_above and soil.k_below (two "
+                         "layers) or [[soil.layers]] is required", param="project")
+    if "barrier_depth" not in soil:
+        raise InputError(f"{p.name}: soil.barrier_depth is required", param="project")
     crit = out["criteria"]
     steady = "recharge" in crit or "water_table_depth" in crit
     falling = any(k in crit for k in ("initial_depth", "final_depth", "days"))
@@ -211,7 +244,8 @@ def load_project(path):
             missing = [k for k in keys if k not in crit]
             raise InputError(f"{p.name}: criteria.{missing[0]} is required with the "
                              f"{group} criterion", param="project")
-    if falling and "drainable_porosity" not in soil:
+    if falling and "drainable_porosity" not in soil and not (
+            "layers" in soil and all("drainable_porosity" in ly for ly in soil["layers"])):
         raise InputError(f"{p.name}: soil.drainable_porosity is required with the falling "
                          "criterion", param="project")
     return Project(path=p, raw=raw, **out)

@@ -266,18 +266,29 @@ def build_sheet(summary, figures_png, path, *, units="metric", paper="A4", logo=
     irows = [["Input", "Value", "Source"]]
     src_soil = _esc(soil.get("source", "project file"))
     src_crit = _esc(crit.get("source", "project file"))
+    top = 0.0
+    for i, ly in enumerate(soil.get("layers") or [], start=1):
+        mu = ly.get("drainable_porosity")
+        irows.append([f"Layer {i}{' ' + _esc(ly['name']) if ly.get('name') else ''} "
+                      f"({length(top)} – {length(top + ly['thickness'])})",
+                      cond(ly["k"]) + (f", μ {mu:.3f}" if mu is not None else ""),
+                      P(src_soil, "cell")])
+        top += ly["thickness"]
+    at_drain = s["inputs"].get("soil_at_drain_depth", {})
     for key, label in (("k", "Hydraulic conductivity K"), ("k_above", "K above drain level"),
                        ("k_below", "K below drain level"),
                        ("k_vertical", "Vertical K (top layer)")):
-        if soil.get(key) is not None:
-            irows.append([label, cond(soil[key]), P(src_soil, "cell")])
+        value = soil.get(key, at_drain.get(key) if soil.get("layers") else None)
+        if value is not None:
+            src = src_soil if key in soil else "layers, thickness-weighted at drain level"
+            irows.append([label, cond(value), P(src, "cell")])
     if soil.get("interface_depth") is not None:
         irows.append(["Layer interface depth", length(soil["interface_depth"]),
                       P(src_soil, "cell")])
     irows.append(["Barrier depth", length(soil["barrier_depth"]), P(src_soil, "cell")])
-    if soil.get("drainable_porosity") is not None:
-        irows.append(["Drainable porosity", f"{soil['drainable_porosity']:.3f}",
-                      P(src_soil, "cell")])
+    mu = soil.get("drainable_porosity", at_drain.get("drainable_porosity"))
+    if mu is not None:
+        irows.append(["Drainable porosity", f"{mu:.3f}", P(src_soil, "cell")])
     for key, label, fmt in (("recharge", "Design recharge", rate),
                             ("water_table_depth", "Water-table depth midway", length),
                             ("initial_depth", "Initial water-table depth", length),

@@ -150,3 +150,27 @@ def test_sweep_plot(run, tmp_path):
     assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
     r = run(*BASE, "--plot", tmp_path / "x.png")
     assert r.exit_code == 2 and "--sweep-k" in r.stderr and not (tmp_path / "x.png").exists()
+
+
+def test_check_spacing(run):
+    # ILRI Publ. 16 Example 8.1 site (inputs quoted second-hand): the widest spacing meeting
+    # the criterion is 64 m; 50 m meets it with a deeper water table, 70 m does not.
+    site = ["spacing", "--k", "0.14", "--drain-depth", "1.2", "--barrier-depth", "6.0",
+            "--drain-radius", "0.1", "--recharge", "1 mm/d", "--water-table-depth", "0.2",
+            "--json"]
+    ok = json.loads(run(*site, "--check-spacing", "50 m").stdout)["check"]
+    bad = json.loads(run(*site, "--check-spacing", "70 m").stdout)["check"]
+    assert ok["meets"] and not bad["meets"]
+    assert ok["required_spacing_m"] == pytest.approx(64.0, abs=0.05)
+    assert ok["midway_water_table_depth_m"] > 0.2 > bad["midway_water_table_depth_m"]
+    assert ok["drainage_rate_m_per_d"] > 0.001 > bad["drainage_rate_m_per_d"]
+    text = run(*site[:-1], "--check-spacing", "70 m").stdout
+    assert "does NOT meet" in text
+    r = run(*site, "--check-spacing", "-5 m")
+    assert r.exit_code == 2 and "--check-spacing" in r.stderr
+
+
+def test_check_spacing_falling(run):
+    r = run(*FALL, "--check-spacing", "25 m", "--json")
+    c = json.loads(r.stdout)["check"]
+    assert c["meets"] and c["midway_depth_after_days_m"] > 1.0

@@ -22,6 +22,15 @@ def option_name(param):
     return "--" + param.replace("_", "-")
 
 
+def _option_names(group):
+    """Long option names of every command in the group (to name an input by its option)."""
+    names = set()
+    for command in group.commands.values():
+        for p in command.params:
+            names.update(o for o in getattr(p, "opts", []) if o.startswith("--"))
+    return names
+
+
 def fail(message, code=1):
     """Print a one-line error on stderr and exit with ``code``."""
     click.echo(f"drainplan: error: {message}", err=True)
@@ -52,8 +61,9 @@ class DrainplanGroup(click.Group):
             rv = self._error("aborted", 1, standalone_mode)
         except InputError as exc:
             msg = str(exc)
-            if exc.param and not msg.startswith("--"):
-                msg = f"{option_name(exc.param)}: {msg}"
+            opt = option_name(exc.param) if exc.param else None
+            if opt in _option_names(self) and not msg.startswith("--"):
+                msg = f"{opt}: {msg}"
             rv = self._error(msg, 2, standalone_mode)
         except DrainplanError as exc:
             rv = self._error(str(exc), 1, standalone_mode)

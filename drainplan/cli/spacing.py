@@ -90,6 +90,9 @@ def _parse_sweep(text):
               help="Equivalent depth: exact series or Moody's approximation.")
 @click.option("--sweep-k", help="Also print spacing for K from FROM to TO in STEPS "
               "(geometric), e.g. '0.1:2:8'.")
+@click.option("--check-spacing", type=LENGTH,
+              help="Check a proposed spacing (e.g. a contractor's) against the criterion: "
+                   "midway water-table depth it gives and whether it meets the design.")
 @click.option("--plot", "plot_path", type=click.Path(dir_okay=False),
               help="With --sweep-k: also write the spacing-against-K curve as a PNG.")
 @click.option("--overwrite", is_flag=True, help="Replace an existing --plot file.")
@@ -98,7 +101,8 @@ def _parse_sweep(text):
 def spacing(method, k, k_above, k_below, interface_depth, k_vertical, geometry_factor,
             drain_depth, barrier_depth, drain_radius, recharge, water_table_depth,
             initial_depth, final_depth, days, drainable_porosity, initial_shape, flow_depth,
-            equivalent_depth_method, sweep_k, plot_path, overwrite, units, as_json):
+            equivalent_depth_method, sweep_k, check_spacing, plot_path, overwrite, units,
+            as_json):
     """Drain spacing for one site.
 
     Steady methods (hooghoudt, ernst, kirkham) need --recharge and
@@ -129,12 +133,22 @@ def spacing(method, k, k_above, k_below, interface_depth, k_vertical, geometry_f
                              "would be narrower than the drains themselves); check K, the "
                              "recharge and the depths")
     sweep_rows = _sweep(inputs, sweep) if sweep is not None else None
+    check = None
+    if check_spacing is not None:
+        from ..spacing import check_spacing as run_check
+
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", ConvergenceWarning)
+            check = run_check(spacing=check_spacing, **inputs)
     if plot_path:
         _write_plot(plot_path, sweep_rows, units, method, overwrite)
     if as_json:
-        click.echo(json.dumps(_as_json(inputs, result, sweep_rows), indent=2))
+        out = _as_json(inputs, result, sweep_rows)
+        if check is not None:
+            out["check"] = check
+        click.echo(json.dumps(out, indent=2))
     else:
-        click.echo(_as_text(inputs, result, sweep_rows, units))
+        click.echo(_as_text(inputs, result, sweep_rows, units, check))
 
 
 def _write_plot(path, rows, units, method, overwrite):
@@ -226,7 +240,7 @@ def _fmt(value, role, units, digits=2):
     return f"{float(convert(value, si, unit)):.{digits}f} {unit}"
 
 
-def _as_text(inputs, r, sweep_rows, units):
+def _as_text(inputs, r, sweep_rows, units, check=None):
     rows = [("method", _TITLES[r.method])]
     labels = [("drain_depth", "drain depth", "length", 2),
               ("barrier_depth", "barrier depth", "length", 2),
@@ -279,6 +293,21 @@ def _as_text(inputs, r, sweep_rows, units):
             ks = float(convert(kv, "m/d", ku))
             ls = "no solution" if not np.isfinite(L) else f"{float(convert(L, 'm', su)):.1f}"
             lines.append(f"  {ks:>14.3f} {ls:>16}")
+    if check is not None:
+        verdict = "MEETS the criterion" if check["meets"] else "does NOT meet the criterion"
+        lines += ["Check of the proposed spacing",
+                  f"  {'proposed spacing':<34} {_fmt(check['proposed_spacing_m'], 'spacing', units, 1)}"
+                  f" -> {verdict} (widest that meets it: "
+                  f"{_fmt(check['required_spacing_m'], 'spacing', units, 1)})"]
+        if "midway_water_table_depth_m" in check:
+            lines.append(f"  {'midway water-table depth':<34} "
+                         f"{_fmt(check['midway_water_table_depth_m'], 'length', units, 2)} "
+                         "under the design recharge")
+            lines.append(f"  {'drainage rate at required depth':<34} "
+                         f"{_fmt(check['drainage_rate_m_per_d'], 'recharge', units, 2)}")
+        else:
+            lines.append(f"  {'midway depth after the time allowed':<34} "
+                         f"{_fmt(check['midway_depth_after_days_m'], 'length', units, 2)}")
     lines += ["Notes"] + [f"  - {n}" for n in r.notes]
     lines.append("  - Check the design against local codes and have it reviewed by a "
                  "qualified professional before construction.")

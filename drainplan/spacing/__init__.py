@@ -2,7 +2,8 @@
 
 from .drain_radius import (drain_radius_table, ditch_radius, effective_radius,
                            square_envelope_radius)
-from .drain_spacing import METHODS, STEADY_METHODS, SpacingResult, drain_spacing
+from .drain_spacing import (METHODS, STEADY_METHODS, SpacingResult, check_spacing,
+                            drain_spacing)
 from .equivalent_depth import (EQUIVALENT_DEPTH_METHODS, equivalent_depth,
                                equivalent_depth_deep_limit, molen_wesseling_f)
 from .ernst import (ERNST_GEOMETRY_TABLE, ernst_geometry_factor, ernst_head,
@@ -15,7 +16,7 @@ from .hooghoudt import (hooghoudt_head, hooghoudt_recharge, hooghoudt_spacing,
 from .kirkham import kirkham_f, kirkham_head, kirkham_spacing
 
 __all__ = [
-    "METHODS", "STEADY_METHODS", "SpacingResult", "drain_spacing",
+    "METHODS", "STEADY_METHODS", "SpacingResult", "drain_spacing", "check_spacing",
     "EQUIVALENT_DEPTH_METHODS", "equivalent_depth", "equivalent_depth_deep_limit",
     "molen_wesseling_f",
     "hooghoudt_spacing", "hooghoudt_head", "hooghoudt_recharge", "hooghoudt_water_table",

@@ -20,10 +20,10 @@ from .equivalent_depth import EQUIVALENT_DEPTH_METHODS, _equivalent_depth_unchec
 from .ernst import ernst_profile_spacing, ernst_profile_terms
 from .glover_dumm import (FLOW_DEPTHS, INITIAL_SHAPES, glover_dumm_flow_depth,
                           glover_dumm_head, glover_dumm_spacing, reaction_factor)
-from .hooghoudt import hooghoudt_recharge, hooghoudt_spacing
+from .hooghoudt import hooghoudt_head, hooghoudt_recharge, hooghoudt_spacing
 from .kirkham import kirkham_f, kirkham_spacing
 
-__all__ = ["METHODS", "STEADY_METHODS", "SpacingResult", "drain_spacing"]
+__all__ = ["METHODS", "STEADY_METHODS", "SpacingResult", "drain_spacing", "check_spacing"]
 
 #: Method names accepted by :func:`drain_spacing` (also the CLI choices).
 METHODS = ("hooghoudt", "ernst", "kirkham", "glover-dumm")
@@ -369,3 +369,83 @@ def _safe(fn):
             return fn()
         except InputError:
             return None
+
+
+def check_spacing(*, spacing, **site):
+    """Check a proposed spacing against the site's criterion.
+
+    Parameters
+    ----------
+    spacing : float
+        Proposed drain spacing [m], > 0.
+    **site
+        The keyword arguments of :func:`drain_spacing` (method, depths, soil,
+        criterion).
+
+    Returns
+    -------
+    dict
+        ``proposed_spacing_m``, ``required_spacing_m`` (the widest spacing that
+        meets the criterion), ``meets`` (bool), and for steady methods
+        ``midway_water_table_depth_m`` (under the design recharge) and
+        ``drainage_rate_m_per_d`` (what the spacing removes with the water table
+        at the required depth); for the falling water table
+        ``midway_depth_after_days_m`` (full series).
+
+    Examples
+    --------
+    >>> c = check_spacing(spacing=50.0, method="hooghoudt", drain_depth=1.2,
+    ...                   barrier_depth=6.0, drain_radius=0.1, k=0.14, recharge=0.001,
+    ...                   water_table_depth=0.2)
+    >>> c["meets"], round(c["midway_water_table_depth_m"], 2)
+    (True, 0.51)
+    """
+    L = float(spacing)
+    if not (np.isfinite(L) and L > 0):
+        raise InputError("proposed spacing must be greater than 0 m", param="check_spacing")
+    req = drain_spacing(**site)
+    method = site["method"]
+    L_req = float(req.spacing)
+    out = {"method": method, "proposed_spacing_m": L, "required_spacing_m": L_req,
+           "meets": bool(np.isfinite(L_req) and L <= L_req * (1 + 1e-9))}
+    zd = float(site["drain_depth"])
+    D = float(req.depth_to_barrier)
+    r0 = float(site["drain_radius"])
+    ka, kb = _conductivities(method, site.get("k"), site.get("k_above"), site.get("k_below"))
+    ka, kb = float(ka), float(kb)
+    edm = site.get("equivalent_depth_method", "series")
+    if method in STEADY_METHODS:
+        q, h_req = float(site["recharge"]), float(req.head)
+        if method == "hooghoudt":
+            kw = dict(k_above=ka, k_below=kb, depth_to_barrier=D, drain_radius=r0,
+                      equivalent_depth_method=edm)
+            h = float(hooghoudt_head(spacing=L, recharge=q, **kw))
+            rate = float(hooghoudt_recharge(spacing=L, head=h_req, **kw))
+        elif method == "kirkham":
+            f = float(kirkham_f(L, D, r0))
+            h = q * L * f / kb
+            rate = h_req * kb / (L * f)
+        else:
+            t = ernst_profile_terms(spacing=L, head=h_req, drain_depth=zd,
+                                    barrier_depth=site["barrier_depth"], k_top=ka,
+                                    k_bottom=kb, interface_depth=site.get("interface_depth"),
+                                    k_vertical=site.get("k_vertical"), drain_radius=r0,
+                                    geometry_factor=site.get("geometry_factor"))
+            resistance = float(t["vertical"] + t["horizontal"] + t["radial"])
+            h = q * resistance
+            rate = h_req / resistance
+        out["midway_water_table_depth_m"] = zd - h
+        out["drainage_rate_m_per_d"] = rate
+    else:
+        y0 = float(req.head)
+        fd = float(glover_dumm_flow_depth(spacing=L, initial_head=y0, depth_to_barrier=D,
+                                          drain_radius=r0,
+                                          flow_depth=site.get("flow_depth", "equivalent"),
+                                          equivalent_depth_method=edm))
+        a = float(reaction_factor(k=kb, flow_depth=fd,
+                                  drainable_porosity=site["drainable_porosity"], spacing=L))
+        y = float(glover_dumm_head(time=site["days"], initial_head=y0, reaction_factor=a,
+                                   shape=site.get("shape", "parabolic")))
+        out["midway_depth_after_days_m"] = zd - y
+        out["flow_depth_m"] = fd
+    return out
