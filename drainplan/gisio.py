@@ -77,6 +77,12 @@ def read_layer(path, *, layer=None, crs=None, what="fields", option="FIELDS"):
     from pyproj import CRS
 
     p = Path(path)
+    if crs is not None:
+        try:
+            CRS.from_user_input(crs)
+        except Exception:
+            raise InputError(f"--crs {crs!r} is not a known CRS (e.g. EPSG:4326)",
+                             param="crs") from None
     if not p.exists():
         raise InputError(f"{what} file not found: {path}", param=option)
     src = str(p)

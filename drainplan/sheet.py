@@ -134,14 +134,15 @@ def build_sheet(summary, figures_png, path, *, units="metric", paper="A4", logo=
     from reportlab import rl_config
     from reportlab.lib.pagesizes import A4, LETTER
     from reportlab.lib.units import mm
-    from reportlab.platypus import (Image, PageBreak, Paragraph, SimpleDocTemplate, Spacer)
+    from reportlab.platypus import (CondPageBreak, Image, PageBreak, Paragraph,
+                                    SimpleDocTemplate, Spacer)
 
     from .units import convert
 
     _fonts()
     st = _styles()
     us = units == "us"
-    L_u, A_u = ("ft", "acre") if us else ("m", "ha")
+    L_u = "ft" if us else "m"
 
     def length(v, nd=2):
         if v is None:
@@ -214,7 +215,9 @@ def build_sheet(summary, figures_png, path, *, units="metric", paper="A4", logo=
               "Outlet flow"],
              [str(len(s["fields"])), area(q["field_area_ha"]), str(q["laterals"]),
               length(q["lateral_length_m"], 0), length(q["main_length_m"], 0),
-              area(q["drained_area_ha"]), f"{q['outlet_flow_l_s']:.1f} L/s"]]
+              area(q["drained_area_ha"]),
+              (f"{q['outlet_flow_l_s'] / 28.316846592:.2f} ft³/s" if us
+               else f"{q['outlet_flow_l_s']:.1f} L/s")]]
     story.append(_table(qrows))
     sizes = ", ".join(f"{k}: {length(v, 0)}" for k, v in q["lateral_length_by_size_m"].items())
     msizes = ", ".join(f"{k}: {length(v, 0)}" for k, v in q["main_length_by_size_m"].items())
@@ -317,18 +320,21 @@ def build_sheet(summary, figures_png, path, *, units="metric", paper="A4", logo=
     for ref in s["references"]:
         story.append(P(_esc(ref), "small"))
 
-    # ---- page 4: pipes
-    story.append(PageBreak())
+    # ---- page 4: pipes (starts on the same page when a useful part of it is left)
+    story.append(CondPageBreak(90 * mm))
     story.append(P("Pipe schedule", "h"))
-    prow = [["Reach", "Length", "Area", "Flow L/s", "Grade", "Size", "Cap. L/s", "V m/s",
-             "Used", "Inverts up/down", "Cover"]]
+    qf, qu = (1 / 28.316846592, "ft³/s") if us else (1.0, "L/s")
+    vf, vu = (1 / 0.3048, "ft/s") if us else (1.0, "m/s")
+    zf = 1 / 0.3048 if us else 1.0
+    prow = [["Reach", "Length", "Area", f"Flow {qu}", "Grade", "Size", f"Cap. {qu}",
+             f"V {vu}", "Used", f"Inverts up/down ({L_u})", "Cover"]]
     for r in s["reaches"]:
         prow.append([r["reach_id"], length(r["length_m"], 0), area(r["drained_area_ha"]),
-                     f"{r['flow_l_s']:.2f}", f"{r['grade']:.2%}", r["size"] or "–",
-                     f"{r['capacity_l_s']:.2f}" if r.get("capacity_l_s") else "–",
-                     f"{r['velocity_m_s']:.2f}" if r.get("velocity_m_s") else "–",
+                     f"{r['flow_l_s'] * qf:.3f}", f"{r['grade']:.2%}", r["size"] or "–",
+                     f"{r['capacity_l_s'] * qf:.3f}" if r.get("capacity_l_s") else "–",
+                     f"{r['velocity_m_s'] * vf:.2f}" if r.get("velocity_m_s") else "–",
                      f"{r['capacity_used_pct']:.0f} %" if r.get("capacity_used_pct") else "–",
-                     (f"{r['invert_up_m']:.2f} / {r['invert_down_m']:.2f}"
+                     (f"{r['invert_up_m'] * zf:.2f} / {r['invert_down_m'] * zf:.2f}"
                       if r.get("invert_up_m") is not None else "–"),
                      length(r.get("cover_min_m")) if r.get("cover_min_m") is not None else "–"])
     story.append(_table(prow, font_size=6.5))

@@ -189,3 +189,17 @@ def test_bad_options(run, tmp_path):
         r = run("layout", FIELDS, "--spacing", "18 m", "--setback", "6 m", "-o", out, *args)
         assert r.exit_code == 2 and opt in r.stderr, (args, r.stderr)
     assert not out.exists()
+
+
+def test_geojson_dir_and_us_units(run, tmp_path):
+    out = tmp_path / "o.gpkg"
+    gj = tmp_path / "gj"
+    r = run("layout", FIELDS, "--spacing", "60 ft", "--setback", "20 ft", "-o", out,
+            "--geojson-dir", gj, "--units", "us")
+    assert r.exit_code == 0, r.output
+    assert "acre" in r.stdout and "ft" in r.stdout
+    for name in ("field", "laterals", "mains", "junctions"):
+        g = gpd.read_file(gj / f"{name}.geojson")
+        assert g.crs.to_epsg() == 4326 and len(g) > 0
+    lat = gpd.read_file(gj / "laterals.geojson")
+    assert lat["spacing_m"].iloc[0] == pytest.approx(60 * 0.3048)

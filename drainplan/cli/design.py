@@ -9,7 +9,7 @@ from pathlib import Path
 
 import click
 
-from .options import json_option
+from .options import json_option, shown
 
 
 @click.command(short_help="Write a commented starter project file.")
@@ -79,11 +79,14 @@ def design(ctx, project_path, output, overwrite, as_json):
                               indent=2))
         return
     d, q = s["design"], s["quantities"]
-    click.echo(f"Design: drains {d['drain_depth_m']:g} m deep, {d['spacing_m']:g} m apart "
-               f"({d['method']}, {d['governing_criterion']} criterion governs)")
-    click.echo(f"Laterals {q['laterals']} ({q['lateral_length_m']:.0f} m), mains "
-               f"{q['main_length_m']:.0f} m, drained area {q['drained_area_ha']:.2f} ha, "
-               f"outlet flow {q['outlet_flow_l_s']:.1f} L/s")
+    u = project.report.get("units", "metric")
+    click.echo(f"Design: drains {shown(d['drain_depth_m'], 'length', u, 2)} deep, "
+               f"{shown(d['spacing_m'], 'length', u, 1)} apart ({d['method']}, "
+               f"{d['governing_criterion']} criterion governs)")
+    click.echo(f"Laterals {q['laterals']} ({shown(q['lateral_length_m'], 'length', u)}), mains "
+               f"{shown(q['main_length_m'], 'length', u)}, drained area "
+               f"{shown(q['drained_area_ha'], 'area', u, 2)}, outlet flow "
+               f"{shown(q['outlet_flow_l_s'], 'flow', u, 1 if u == 'metric' else 2)}")
     if s["pipe_problems"]:
         click.echo(f"{len(s['pipe_problems'])} pipe problem(s): see the design sheet")
     click.echo(f"Design sheet: {out / 'design_sheet.pdf'}")

@@ -8,7 +8,7 @@ from pathlib import Path
 import click
 
 from ..errors import InputError
-from .options import LENGTH, json_option
+from .options import DISPLAY, LENGTH, json_option, shown, units_option
 
 
 def _parse_direction(value):
@@ -101,12 +101,13 @@ def _parse_outlet(value):
 @click.option("--geojson-dir", type=click.Path(file_okay=False),
               help="Also write each layer as GeoJSON (lon/lat) into this folder.")
 @click.option("--overwrite", is_flag=True, help="Replace existing output files.")
+@units_option
 @json_option
 def layout(fields, spacing, direction, setback, output, layer, id_field, crs, work_crs,
            keep_metric_crs, exclude_path, exclude_layer, exclude_setback, min_length, offset,
            main_side, pattern, herringbone_angle, main_path, outlet, cross_setbacks, repair,
            survey_path, survey_crs,
-           plot_path, geojson_dir, overwrite, as_json):
+           plot_path, geojson_dir, overwrite, units, as_json):
     """Lay out parallel laterals and a collector main over the field boundaries in
     FIELDS (GeoJSON, GeoPackage, Shapefile or zipped Shapefile, FlatGeobuf).
 
@@ -146,7 +147,7 @@ def layout(fields, spacing, direction, setback, output, layer, id_field, crs, wo
     if as_json:
         click.echo(json.dumps(layout_summary(plan, out), indent=2))
     else:
-        click.echo(_text(plan, out, plot_path))
+        click.echo(_text(plan, out, plot_path, units))
 
 
 def _outlet_in_fields_crs(value, fields, layer, crs):
@@ -201,21 +202,22 @@ def layout_summary(plan, out=None):
     }
 
 
-def _text(plan, out, plot_path):
-    head = (f"{'field':<10} {'ha':>7} {'bearing':>8} {'laterals':>8} {'lateral m':>10} "
-            f"{'main m':>8} {'m/ha':>6} {'dropped':>7} {'no route':>8}")
-    lines = [f"Layout at {plan.layout.spacing:g} m spacing", head]
-    for r in plan.per_field:
-        lines.append(f"{r['field_id']:<10} {r['field_area_ha']:>7.2f} {r['bearing_deg']:>8.1f} "
-                     f"{r['laterals']:>8d} {r['lateral_length_m']:>10.0f} "
-                     f"{r['main_length_m']:>8.0f} {r['drain_density_m_per_ha']:>6.0f} "
+def _text(plan, out, plot_path, units="metric"):
+    d = DISPLAY[units]
+    fa, fl, fd = d["area"][1], d["length"][1], d["density"][1]
+    head = (f"{'field':<10} {d['area'][0]:>7} {'bearing':>8} {'laterals':>8} "
+            f"{'lateral ' + d['length'][0]:>10} {'main ' + d['length'][0]:>8} "
+            f"{d['density'][0]:>8} {'dropped':>7} {'no route':>8}")
+    lines = [f"Layout at {shown(plan.layout.spacing, 'length', units, 1)} spacing", head]
+    rows = plan.per_field + [dict(plan.totals, field_id="total", bearing_deg=None)]
+    for r in rows:
+        bearing = "" if r["bearing_deg"] is None else f"{r['bearing_deg']:.1f}"
+        lines.append(f"{r['field_id']:<10} {r['field_area_ha'] * fa:>7.2f} {bearing:>8} "
+                     f"{r['laterals']:>8d} {r['lateral_length_m'] * fl:>10.0f} "
+                     f"{r['main_length_m'] * fl:>8.0f} {r['drain_density_m_per_ha'] * fd:>8.0f} "
                      f"{r['dropped_pieces']:>7d} {r['unconnected_pieces']:>8d}")
     t = plan.totals
-    lines.append(f"{'total':<10} {t['field_area_ha']:>7.2f} {'':>8} {t['laterals']:>8d} "
-                 f"{t['lateral_length_m']:>10.0f} {t['main_length_m']:>8.0f} "
-                 f"{t['drain_density_m_per_ha']:>6.0f} {t['dropped_pieces']:>7d} "
-                 f"{t['unconnected_pieces']:>8d}")
-    lines.append(f"connectors (non-perforated): {t['connector_length_m']:.0f} m")
+    lines.append(f"connectors (non-perforated): {shown(t['connector_length_m'], 'length', units)}")
     lines.append(f"written: {out}" + (f", {plot_path}" if plot_path else ""))
     lines += ["Notes"] + [f"  - {n}" for n in plan.notes]
     lines.append("  - Locate buried utilities before trenching and check setbacks (wells, "

@@ -8,7 +8,7 @@ from pathlib import Path
 import click
 
 from ..errors import InputError
-from .options import LENGTH, RATE, json_option
+from .options import LENGTH, RATE, json_option, shown, units_option
 
 
 @click.command(short_help="Size and grade the pipes of a layout.")
@@ -66,12 +66,13 @@ from .options import LENGTH, RATE, json_option
 @click.option("--plot", "plot_path", type=click.Path(dir_okay=False),
               help="Also write a PNG of the main's profile and the flattest lateral's.")
 @click.option("--overwrite", is_flag=True, help="Replace existing output files.")
+@units_option
 @json_option
 def pipes(layout_path, coefficient, survey_path, survey_crs, survey_z_unit, dem_path,
           material, series, sizes_path, capacity_method, capacity_factor, drain_depth,
           main_depth, min_grade, max_grade, min_cover, max_depth, min_velocity, max_velocity,
           ditch_water_level, outfall_margin, assumed_grade, output, gpkg_path, plot_path,
-          overwrite, as_json):
+          overwrite, units, as_json):
     """Size every lateral and main reach of the layout in LAYOUT.gpkg (written by
     `drainplan layout`) and check grades, cover and the outlet on real elevations.
 
@@ -110,7 +111,7 @@ def pipes(layout_path, coefficient, survey_path, survey_crs, survey_z_unit, dem_
     if as_json:
         click.echo(json.dumps(pipes_summary(plan), indent=2, default=float))
     else:
-        click.echo(_text(d, output))
+        click.echo(_text(d, output, units))
 
 
 def write_pipes(plan, output, *, gpkg_path=None, plot_path=None, overwrite=False):
@@ -151,14 +152,16 @@ def pipes_summary(plan):
             "totals": d.totals, "notes": d.notes}
 
 
-def _text(d, output):
+def _text(d, output, units="metric"):
     lines = ["Quantity take-off"]
     for r in d.takeoff:
-        qty = f"{r['length_m']:>9.1f} m" if r["length_m"] else f"{r['count']:>9d} pcs"
+        qty = (f"{shown(r['length_m'], 'length', units, 1):>12}" if r["length_m"]
+               else f"{r['count']:>8d} pcs")
         lines.append(f"  {r['kind']:<8} {r['material']:<22} {r['size']:<36} {qty}")
     t = d.totals
-    lines.append(f"drained area {t['drained_area_ha']:.2f} ha, outlet flow "
-                 f"{t['outlet_flow_l_s']:.1f} L/s; schedule written to {output}")
+    flow = shown(t["outlet_flow_l_s"], "flow", units, 1 if units == "metric" else 2)
+    lines.append(f"drained area {shown(t['drained_area_ha'], 'area', units, 2)}, outlet flow "
+                 f"{flow}; schedule written to {output} (SI units)")
     if d.violations:
         lines.append(f"{len(d.violations)} problem(s):")
         for v in d.violations[:30]:
