@@ -49,11 +49,12 @@ def require_nonnegative(values, param, label, unit):
                          param=param)
 
 
-def require_less(small, large, param, message):
-    """Raise InputError with ``message.format(a, b)`` where small >= large."""
-    bad = small >= large
+def refuse_where(bad, first, second, param, message):
+    """Raise InputError with ``message.format(first_value, second_value)`` taken at the
+    first case where ``bad`` holds (arrays broadcast together)."""
+    bad = np.asarray(bad)
     if np.any(bad):
-        raise InputError(message.format(_first_bad(bad, small), _first_bad(bad, large)),
+        raise InputError(message.format(_first_bad(bad, first), _first_bad(bad, second)),
                          param=param)
 
 

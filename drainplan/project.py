@@ -69,7 +69,7 @@ SCHEMA = {
               "ditch_water_level": ("length", False), "outfall_margin": ("length", False),
               "sizes": ("path", False)},
     "report": {"units": ("choice:metric|us", False), "paper": ("choice:A4|Letter", False),
-               "logo": ("path", False), "title": ("text", False)},
+               "logo": ("path", False)},
 }
 _REQUIRED_SECTIONS = ("site", "fields", "soil", "drains")
 

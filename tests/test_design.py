@@ -136,3 +136,29 @@ def test_bad_project_through_cli(run, tmp_path, edit, text):
     assert "Traceback" not in r.output
     assert not out.exists()
     assert not [p for p in tmp_path.iterdir() if p.name.startswith(".out")]
+
+
+def test_us_letter_with_logo(run, tmp_path):
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    fig, ax = plt.subplots(figsize=(2, 1))
+    ax.text(0.5, 0.5, "LOGO", ha="center")
+    ax.set_axis_off()
+    fig.savefig(tmp_path / "logo.png")
+    plt.close(fig)
+    text = (DEMO / "project.toml").read_text().replace('units = "metric"', 'units = "us"')
+    text = text.replace('paper = "A4"', 'paper = "Letter"\nlogo = "logo.png"')
+    for name in ("fields.geojson", "exclusions.geojson", "outlet.geojson", "survey.csv"):
+        (tmp_path / name).symlink_to(DEMO / name)
+    (tmp_path / "project.toml").write_text(text)
+    r = run("design", tmp_path / "project.toml", "-o", tmp_path / "out")
+    assert r.exit_code == 0, r.output
+    assert " ft " in r.stdout + " "
+    reader = pypdf.PdfReader(tmp_path / "out" / "design_sheet.pdf")
+    w, h = (float(v) for v in reader.pages[0].mediabox.upper_right)
+    assert (round(w), round(h)) == (612, 792)                 # US Letter, points
+    text0 = reader.pages[0].extract_text()
+    assert "ft" in text0 and "acre" in text0

@@ -15,7 +15,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..errors import InputError
-from .._validate import require_positive, scalar_or_array
+from .._validate import refuse_where, require_positive, scalar_or_array
 from .equivalent_depth import EQUIVALENT_DEPTH_METHODS, _equivalent_depth_unchecked
 from .ernst import ernst_profile_spacing, ernst_profile_terms
 from .glover_dumm import (FLOW_DEPTHS, INITIAL_SHAPES, glover_dumm_flow_depth,
@@ -78,10 +78,6 @@ def _require(value, name, label):
     if value is None:
         raise InputError(f"{label} is required for this method", param=name)
     return value
-
-
-def _first_where(bad):
-    return np.flatnonzero(np.ravel(bad))[0]
 
 
 def drain_spacing(*, method, drain_depth, barrier_depth, drain_radius, k=None,
@@ -196,13 +192,8 @@ def _drain_spacing(method, drain_depth, barrier_depth, drain_radius, k, k_above,
         raise InputError("drain depth must be greater than 0 m", param="drain_depth")
     if np.any(~np.isfinite(zb)):
         raise InputError("barrier depth must be a finite number", param="barrier_depth")
-    bad = zb < zd
-    if np.any(bad):
-        i = _first_where(bad)
-        raise InputError(
-            f"barrier depth {np.broadcast_to(zb, bad.shape).ravel()[i]:g} m must not be "
-            f"above the drain depth {np.broadcast_to(zd, bad.shape).ravel()[i]:g} m",
-            param="barrier_depth")
+    refuse_where(zb < zd, zb, zd, "barrier_depth",
+                 "barrier depth {:g} m must not be above the drain depth {:g} m")
     D = zb - zd
     notes = []
     if method == "kirkham":
@@ -228,13 +219,8 @@ def _drain_spacing(method, drain_depth, barrier_depth, drain_radius, k, k_above,
         if np.any(~np.isfinite(zw)) or np.any(zw < 0):
             raise InputError("water-table depth must be 0 m (surface) or deeper",
                              param="water_table_depth")
-        bad = zw >= zd
-        if np.any(bad):
-            i = _first_where(bad)
-            raise InputError(
-                f"water-table depth {np.broadcast_to(zw, bad.shape).ravel()[i]:g} m must be "
-                f"shallower than the drain depth {np.broadcast_to(zd, bad.shape).ravel()[i]:g} m",
-                param="water_table_depth")
+        refuse_where(zw >= zd, zw, zd, "water_table_depth",
+                     "water-table depth {:g} m must be shallower than the drain depth {:g} m")
         h = zd - zw
         extra = {}
         if method == "hooghoudt":
