@@ -243,14 +243,11 @@ def design(project, *, progress=None):
                          cross_setbacks=lo.get("cross_setbacks", True),
                          pattern=lo.get("pattern", "parallel"),
                          herringbone_angle=lo.get("herringbone_angle", 45.0))
-    outlet = fl.get("outlet")
-    if isinstance(outlet, str):
-        outlet = _outlet_from_file(outlet, fl)
     lp = plan_layout(LayoutInputs(
         fields_path=fl["file"], options=opts, layer=fl.get("layer"),
         id_field=fl.get("id_attribute"), crs=fl.get("crs"), work_crs=fl.get("work_crs"),
         exclude_path=fl.get("exclusions"), exclude_layer=fl.get("exclusions_layer"),
-        exclude_setback=fl.get("exclusion_setback", 15.0), outlet=outlet,
+        exclude_setback=fl.get("exclusion_setback", 15.0), outlet=fl.get("outlet"),
         repair=lo.get("repair", False)))
 
     # pipes
@@ -284,18 +281,6 @@ def design(project, *, progress=None):
     summary = _summary(p, table, depth, spacing, raw_spacing, governing, chosen_method,
                        comparison, sensitivity, lp, pipes_plan, main_result, coef)
     return DesignResult(p, summary, lp, pipes_plan, figures)
-
-
-def _outlet_from_file(path, fl):
-    import geopandas as gpd
-
-    from .gisio import read_layer
-
-    pts, pcrs = read_layer(path, crs=fl.get("crs"), what="outlet", option="outlet")
-    _, fcrs = read_layer(fl["file"], layer=fl.get("layer"), crs=fl.get("crs"),
-                         what="fields", option="fields")
-    g = gpd.GeoSeries([pts.geometry.iloc[0]], crs=pcrs).to_crs(fcrs).iloc[0]
-    return (g.x, g.y)
 
 
 def _figure_data(p, depth, spacing, r, method):

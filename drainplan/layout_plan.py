@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import dataclasses
 from dataclasses import dataclass, field
+from pathlib import Path
 
 import numpy as np
 
@@ -39,7 +40,7 @@ class LayoutInputs:
     exclude_layer: str | None = None
     exclude_setback: float = 15.0
     exclude_setback_field: str = "setback_m"
-    outlet: tuple | None = None          # (x, y) in the fields file's CRS
+    outlet: object = None                # (x, y) in the fields file's CRS, or a point file
     main_path: str | None = None
     repair: bool = False
     survey_path: str | None = None       # elevations: 'auto' runs laterals across the slope
@@ -115,8 +116,17 @@ def plan_layout(inp: LayoutInputs) -> LayoutPlan:
         ex_metric = ex_src.to_crs(work_crs)
         ex_geoms = ex_metric.geometry.values
         if inp.exclude_setback_field in ex_metric.columns:
-            sb = np.asarray(ex_metric[inp.exclude_setback_field], float)
-            sb = np.where(np.isfinite(sb), sb, inp.exclude_setback)
+            import pandas as pd
+
+            sb = pd.to_numeric(ex_metric[inp.exclude_setback_field], errors="coerce")
+            bad = sb.isna() & ex_metric[inp.exclude_setback_field].notna()
+            if bad.any():
+                raise InputError(f"exclusion attribute {inp.exclude_setback_field!r} holds "
+                                 f"a value that is not a number of metres: "
+                                 f"{ex_metric[inp.exclude_setback_field][bad].iloc[0]!r}",
+                                 param="exclude")
+            sb = np.where(np.isfinite(sb.to_numpy(float)), sb.to_numpy(float),
+                          inp.exclude_setback)
         else:
             sb = np.full(len(ex_metric), inp.exclude_setback)
         if np.any(sb < 0):
@@ -124,7 +134,14 @@ def plan_layout(inp: LayoutInputs) -> LayoutPlan:
         ex_setbacks = sb
 
     outlet_m = None
-    if inp.outlet is not None:
+    if isinstance(inp.outlet, (str, Path)):
+        pts, pts_crs = read_layer(inp.outlet, crs=inp.crs, what="outlet", option="outlet")
+        points = [g for g in pts.geometry if g is not None and g.geom_type == "Point"]
+        if not points:
+            raise InputError(f"outlet file {inp.outlet} holds no point", param="outlet")
+        pt = gpd.GeoSeries(points[:1], crs=pts_crs).to_crs(work_crs)
+        outlet_m = tuple(np.asarray(pt.iloc[0].coords[0]))
+    elif inp.outlet is not None:
         pt = gpd.GeoSeries([shapely.Point(inp.outlet)], crs=file_crs).to_crs(work_crs)
         outlet_m = tuple(np.asarray(pt.iloc[0].coords[0]))
 

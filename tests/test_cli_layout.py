@@ -203,3 +203,21 @@ def test_geojson_dir_and_us_units(run, tmp_path):
         assert g.crs.to_epsg() == 4326 and len(g) > 0
     lat = gpd.read_file(gj / "laterals.geojson")
     assert lat["spacing_m"].iloc[0] == pytest.approx(60 * 0.3048)
+
+
+def test_exclusion_setback_attribute(run, tmp_path):
+    ex = gpd.read_file(EXCL)
+    ex["setback_m"] = ex["setback_m"].astype(object)
+    ex.loc[0, "setback_m"] = "thirty"
+    bad = tmp_path / "bad.gpkg"
+    ex.to_file(bad, engine="pyogrio")
+    r = run("layout", FIELDS, "--spacing", "18 m", "--exclude", bad, "-o", tmp_path / "o.gpkg")
+    assert r.exit_code == 2 and "setback_m" in r.stderr and "thirty" in r.stderr
+    ex.loc[0, "setback_m"] = None                       # missing: the default applies
+    ok = tmp_path / "ok.gpkg"
+    ex.to_file(ok, engine="pyogrio")
+    r = run("layout", FIELDS, "--spacing", "18 m", "--exclude", ok, "--exclude-setback",
+            "40 m", "-o", tmp_path / "o.gpkg", "--json")
+    assert r.exit_code == 0, r.output
+    layer = gpd.read_file(tmp_path / "o.gpkg", layer="exclusions")
+    assert sorted(layer["setback_m"]) == [5.0, 10.0, 40.0]

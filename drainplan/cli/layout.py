@@ -26,7 +26,7 @@ def _parse_direction(value):
 
 
 def _parse_outlet(value):
-    """'X,Y' in the fields file's CRS, or a file holding one point."""
+    """'X,Y' in the fields file's coordinates, or the path of a file holding a point."""
     if value is None:
         return None
     parts = str(value).split(",")
@@ -35,15 +35,8 @@ def _parse_outlet(value):
             return (float(parts[0]), float(parts[1]))
         except ValueError:
             pass
-    path = Path(value)
-    if path.exists():
-        from ..gisio import read_layer
-
-        gdf, _ = read_layer(path, what="outlet", option="outlet")
-        pts = [g for g in gdf.geometry if g is not None and g.geom_type == "Point"]
-        if not pts:
-            raise InputError(f"outlet file {value} holds no point", param="outlet")
-        return None if not pts else ("file", path, pts[0])
+    if Path(value).exists():
+        return str(value)
     raise click.BadParameter("expected X,Y in the fields file's coordinates or a file with "
                              "one point", param_hint="'--outlet'")
 
@@ -130,8 +123,6 @@ def layout(fields, spacing, direction, setback, output, layer, id_field, crs, wo
     if offset is not None and not 0 <= offset < spacing:
         raise InputError("offset must be 0 or more and less than the spacing", param="offset")
     outlet_value = _parse_outlet(outlet)
-    if isinstance(outlet_value, tuple) and outlet_value and outlet_value[0] == "file":
-        outlet_value = _outlet_in_fields_crs(outlet_value, fields, layer, crs)
     opts = LayoutOptions(spacing=spacing, direction=_parse_direction(direction),
                          setback=setback, min_length=min_length, offset=offset,
                          main_side=main_side, cross_setbacks=cross_setbacks, pattern=pattern,
@@ -148,19 +139,6 @@ def layout(fields, spacing, direction, setback, output, layer, id_field, crs, wo
         click.echo(json.dumps(layout_summary(plan, out), indent=2))
     else:
         click.echo(_text(plan, out, plot_path, units))
-
-
-def _outlet_in_fields_crs(value, fields, layer, crs):
-    """Reproject a point from an outlet file into the fields file's CRS."""
-    import geopandas as gpd
-
-    from ..gisio import read_layer
-
-    _, path, _pt = value
-    pts, pcrs = read_layer(path, crs=crs, what="outlet", option="outlet")
-    _, fcrs = read_layer(fields, layer=layer, crs=crs, what="fields", option="fields")
-    g = gpd.GeoSeries([pts.geometry.iloc[0]], crs=pcrs).to_crs(fcrs).iloc[0]
-    return (g.x, g.y)
 
 
 def write_layout(plan, out, *, plot_path=None, geojson_dir=None, overwrite=False):
