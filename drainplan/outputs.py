@@ -96,7 +96,6 @@ def write_design_outputs(result, outdir, *, overwrite=False, progress=None):
     Refuses a non-empty ``outdir`` unless ``overwrite``. Returns the list of
     paths written.
     """
-    from .gisio import FIXED_TIMESTAMP  # noqa: F401  (fixed GeoPackage timestamps)
     from .gisio import write_layers
     from .pipes_plan import schedule_csv
     from .sheet import build_sheet

@@ -29,7 +29,9 @@ def test_demo_layout_and_layers(run, tmp_path):
     assert r.exit_code == 0, r.output
     summary = json.loads(r.stdout)
     layers = {row[0] for row in pyogrio.list_layers(out)}
-    assert {"field", "laterals", "mains", "outlets", "exclusions"} <= layers
+    from drainplan.layout_plan import LAYER_NAMES
+
+    assert set(LAYER_NAMES) == layers
     lat = gpd.read_file(out, layer="laterals")
     assert {"field_id", "lateral_id", "length_m", "spacing_m"} <= set(lat.columns)
     assert lat.crs.to_epsg() == 4326                        # written in the input CRS

@@ -31,12 +31,6 @@ def _option_names(group):
     return names
 
 
-def fail(message, code=1):
-    """Print a one-line error on stderr and exit with ``code``."""
-    click.echo(f"drainplan: error: {message}", err=True)
-    sys.exit(code)
-
-
 class DrainplanGroup(click.Group):
     """Click group that turns every error into one line on stderr.
 
