@@ -1,4 +1,4 @@
-"""The one module that opens and writes GIS files.
+"""The one module that opens and writes GIS files (vector layers, survey points, DEMs).
 
 Readers turn a file into a GeoDataFrame in a metric projected CRS (or refuse,
 with a one-line message); writers write to a temporary file beside the target
@@ -9,30 +9,20 @@ same input gives the same file.
 
 from __future__ import annotations
 
+import csv
 import os
 import tempfile
-from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
 
 from .errors import InputError
 
-__all__ = ["ReadLayer", "read_layer", "to_metric", "write_layers", "write_atomic",
-           "FIXED_TIMESTAMP"]
+__all__ = ["read_layer", "to_metric", "read_survey", "read_dem", "write_layers",
+           "write_atomic", "write_geojson", "FIXED_TIMESTAMP"]
 
 #: Timestamp written into GeoPackage metadata (deterministic output).
 FIXED_TIMESTAMP = "2000-01-01T00:00:00.000Z"
-
-
-@dataclass
-class ReadLayer:
-    """A layer read from a file, with its CRS story."""
-
-    frame: object            # GeoDataFrame in the working (metric) CRS
-    source_crs: object       # pyproj CRS of the file (or as assigned by the user)
-    work_crs: object         # pyproj CRS used for the layout
-    path: str
 
 
 def _gpd():
@@ -223,3 +213,81 @@ def write_geojson(path, gdf, *, overwrite=False):
     out = gdf.to_crs("EPSG:4326") if gdf.crs is not None else gdf
     return write_atomic(path, lambda tmp: pyogrio.write_dataframe(out, tmp, driver="GeoJSON"),
                         overwrite=overwrite)
+
+
+def read_survey(path, *, crs, z_unit="m", work_crs=None):
+    """Survey points from a CSV with columns x, y, z (or lon/lat, easting/northing,
+    elevation); returns (xy in work_crs, z in metres)."""
+    from pyproj import CRS, Transformer
+
+    from .units import convert
+
+    try:
+        with open(path, newline="", encoding="utf-8-sig") as fh:
+            rows = list(csv.DictReader(fh))
+    except FileNotFoundError:
+        raise InputError(f"survey file not found: {path}", param="survey") from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise InputError(f"cannot read survey file {path}: {exc}", param="survey") from None
+    if not rows:
+        raise InputError(f"survey file {path} holds no points", param="survey")
+    cols = {c.strip().lower(): c for c in rows[0].keys() if c}
+    pick = lambda *names: next((cols[n] for n in names if n in cols), None)  # noqa: E731
+    cx, cy = pick("x", "lon", "longitude", "easting", "e"), pick("y", "lat", "latitude",
+                                                                 "northing", "n")
+    cz = pick("z", "elevation", "elev", "height", "h")
+    missing = [n for n, c in (("x", cx), ("y", cy), ("z", cz)) if c is None]
+    if missing:
+        raise InputError(f"survey file {path} needs columns x, y and z (missing: "
+                         f"{', '.join(missing)})", param="survey")
+    try:
+        xy = np.array([[float(r[cx]), float(r[cy])] for r in rows])
+        z = np.array([float(r[cz]) if r[cz] not in ("", None) else np.nan for r in rows])
+    except (TypeError, ValueError):
+        raise InputError(f"survey file {path} holds a value that is not a number",
+                         param="survey") from None
+    if np.any(~np.isfinite(z)):
+        i = int(np.flatnonzero(~np.isfinite(z))[0])
+        raise InputError(f"survey file {path}: point {i + 1} has no z", param="survey")
+    z = np.asarray(convert(z, z_unit, "m"), float)
+    try:
+        src = CRS.from_user_input(crs)
+    except Exception:
+        raise InputError(f"survey CRS {crs!r} is not a known CRS (e.g. EPSG:4326)",
+                         param="survey_crs") from None
+    if work_crs is not None and src != work_crs:
+        tr = Transformer.from_crs(src, work_crs, always_xy=True)
+        xy = np.c_[tr.transform(xy[:, 0], xy[:, 1])]
+    return xy, z
+
+
+def read_dem(path, work_crs):
+    """A GeoTIFF DEM's first band, reprojected to ``work_crs`` if needed.
+
+    Returns ``(values, affine transform (a, b, c, d, e, f), nodata)``; needs
+    rasterio (the ``dem`` extra).
+    """
+    try:
+        import rasterio
+        from rasterio.warp import Resampling, calculate_default_transform, reproject
+    except ImportError:
+        raise InputError("reading a DEM needs rasterio: pip install 'drainplan[dem]'",
+                         param="dem") from None
+    try:
+        with rasterio.open(path) as ds:
+            if ds.crs is None:
+                raise InputError(f"DEM {path} has no CRS", param="dem")
+            band = ds.read(1).astype(float)
+            nodata = ds.nodata
+            if ds.crs != work_crs:
+                # reproject the grid to the layout's metric CRS
+                tr, w, h = calculate_default_transform(ds.crs, work_crs.to_wkt(), ds.width,
+                                                       ds.height, *ds.bounds)
+                out = np.full((h, w), np.nan)
+                reproject(band, out, src_transform=ds.transform, src_crs=ds.crs,
+                          src_nodata=nodata, dst_transform=tr, dst_crs=work_crs.to_wkt(),
+                          dst_nodata=np.nan, resampling=Resampling.bilinear)
+                return out, tuple(tr)[:6], None
+            return band, tuple(ds.transform)[:6], nodata
+    except rasterio.errors.RasterioIOError as exc:
+        raise InputError(f"cannot read DEM {path}: {exc}", param="dem") from None

@@ -264,7 +264,7 @@ def _across_slope(inp, geoms, ids, work_crs):
     """Per-field bearings across the fall of a plane fitted to the surveyed ground."""
     import shapely
 
-    from .pipes_plan import read_survey
+    from .gisio import read_survey
     from .terrain import PointSurface, check_coverage, fall_bearing, fit_plane
 
     xy, z = read_survey(inp.survey_path, crs=inp.survey_crs or work_crs,

@@ -260,7 +260,7 @@ def design_pipes(runs, mains, options, *, surface=None, receiving_outlet=None):
             row = {"reach_id": f"{fid}-M{k + 1:02d}", "kind": "main", "field_id": fid,
                    "from": f"{a:.1f} m", "to": f"{b:.1f} m", "length_m": float(b - a),
                    "drained_area_ha": up_area / 1e4, "flow_l_s": flow * 1000.0,
-                   "warnings": [], "_chainage": (a, b),
+                   "warnings": [], "main_chainage_m": [float(a), float(b)],
                    "_start": np.asarray(main.interpolate(a).coords[0])}
             if minv is None:
                 row["grade"] = options.assumed_grade
@@ -271,14 +271,14 @@ def design_pipes(runs, mains, options, *, surface=None, receiving_outlet=None):
                            invert_down_m=float(idn))
             main_rows.append(row)
         lat_idx = np.array([_size_index(r, series) for r in these])
-        floor = [int(lat_idx[jch <= r["_chainage"][0] + 1e-6].max(initial=-1))
+        floor = [int(lat_idx[jch <= r["main_chainage_m"][0] + 1e-6].max(initial=-1))
                  for r in main_rows]
         _size_rows(main_rows, series, options, uniform_inflow=False, taper=True,
                    min_index=np.array(floor, int))
         if minv is not None:
             ground = profiles[f"{fid}-M"]["ground"]
             for row in main_rows:
-                a, b = row["_chainage"]
+                a, b = row["main_chainage_m"]
                 sel = (mch >= a - 1e-9) & (mch <= b + 1e-9)
                 depth = np.interp(mch[sel], mch, ground) - np.interp(mch[sel], mch, minv)
                 row["cover_min_m"] = float(depth.min() - _outside(row, series))

@@ -8,13 +8,11 @@ sources and can be replaced by edited copies.
 
 from __future__ import annotations
 
-import csv
 from dataclasses import dataclass
-from functools import lru_cache
-from importlib import resources
 
 import numpy as np
 
+from ._templates import template_rows
 from .errors import InputError
 from ._validate import as_float_arrays, require_positive, scalar_or_array
 
@@ -192,22 +190,6 @@ class PipeSeries:
     source: tuple
 
 
-def _read_csv(name, path=None):
-    if path is not None:
-        try:
-            with open(path, newline="", encoding="utf-8") as fh:
-                return list(csv.DictReader(fh))
-        except OSError as exc:
-            raise InputError(f"cannot read {path}: {exc.strerror}", param="sizes") from None
-    text = resources.files("drainplan").joinpath(f"templates/{name}").read_text("utf-8")
-    return list(csv.DictReader(text.splitlines()))
-
-
-@lru_cache(maxsize=8)
-def _cached_rows(name):
-    return tuple(tuple(r.items()) for r in _read_csv(name))
-
-
 def pipe_series(material, series="metric", *, path=None):
     """Standard sizes of ``material`` in the ``series`` ("metric" or "inch").
 
@@ -217,8 +199,7 @@ def pipe_series(material, series="metric", *, path=None):
     if material not in MATERIALS:
         raise InputError(f"material {material!r} is unknown; choose one of "
                          + ", ".join(MATERIALS), param="material")
-    rows = _read_csv("pipe_sizes.csv", path) if path else [dict(r) for r in
-                                                         _cached_rows("pipe_sizes.csv")]
+    rows = template_rows("pipe_sizes.csv", path, param="sizes")
     try:
         sel = [r for r in rows if r["material"] == material and r["series"] == series]
         d = np.array([float(r["inner_diameter_mm"]) for r in sel]) / 1000.0
@@ -235,7 +216,7 @@ def pipe_series(material, series="metric", *, path=None):
 
 def manning_n(material, diameter):
     """Manning's n for ``material`` at inside diameter ``diameter`` [m] (table lookup)."""
-    rows = [dict(r) for r in _cached_rows("manning_n.csv")]
+    rows = template_rows("manning_n.csv")
     d_mm = np.asarray(diameter, float) * 1000.0
     out = np.full(d_mm.shape, np.nan)
     for r in rows:

@@ -12,7 +12,7 @@ import numpy as np
 from .errors import InputError
 from .pipe_design import LateralRun, PipeDesign, PipeOptions, design_pipes
 
-__all__ = ["PipesInputs", "PipesPlan", "plan_pipes", "read_survey", "SCHEDULE_COLUMNS",
+__all__ = ["PipesInputs", "PipesPlan", "plan_pipes", "pipes_from_layers", "SCHEDULE_COLUMNS",
            "schedule_csv"]
 
 SCHEDULE_COLUMNS = ["reach_id", "kind", "field_id", "from", "to", "length_m", "drained_area_ha",
@@ -39,77 +39,6 @@ class PipesPlan:
     out_crs: object
 
 
-def read_survey(path, *, crs, z_unit="m", work_crs=None):
-    """Survey points from a CSV with columns x, y, z (or lon/lat, easting/northing,
-    elevation); returns (xy in work_crs, z in metres)."""
-    from pyproj import CRS, Transformer
-
-    from .units import convert
-
-    try:
-        with open(path, newline="", encoding="utf-8-sig") as fh:
-            rows = list(csv.DictReader(fh))
-    except FileNotFoundError:
-        raise InputError(f"survey file not found: {path}", param="survey") from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(f"cannot read survey file {path}: {exc}", param="survey") from None
-    if not rows:
-        raise InputError(f"survey file {path} holds no points", param="survey")
-    cols = {c.strip().lower(): c for c in rows[0].keys() if c}
-    pick = lambda *names: next((cols[n] for n in names if n in cols), None)  # noqa: E731
-    cx, cy = pick("x", "lon", "longitude", "easting", "e"), pick("y", "lat", "latitude",
-                                                                 "northing", "n")
-    cz = pick("z", "elevation", "elev", "height", "h")
-    missing = [n for n, c in (("x", cx), ("y", cy), ("z", cz)) if c is None]
-    if missing:
-        raise InputError(f"survey file {path} needs columns x, y and z (missing: "
-                         f"{', '.join(missing)})", param="survey")
-    try:
-        xy = np.array([[float(r[cx]), float(r[cy])] for r in rows])
-        z = np.array([float(r[cz]) if r[cz] not in ("", None) else np.nan for r in rows])
-    except (TypeError, ValueError):
-        raise InputError(f"survey file {path} holds a value that is not a number",
-                         param="survey") from None
-    if np.any(~np.isfinite(z)):
-        i = int(np.flatnonzero(~np.isfinite(z))[0])
-        raise InputError(f"survey file {path}: point {i + 1} has no z", param="survey")
-    z = np.asarray(convert(z, z_unit, "m"), float)
-    src = CRS.from_user_input(crs)
-    if work_crs is not None and src != work_crs:
-        tr = Transformer.from_crs(src, work_crs, always_xy=True)
-        xy = np.c_[tr.transform(xy[:, 0], xy[:, 1])]
-    return xy, z
-
-
-def _read_dem(path, work_crs):
-    try:
-        import rasterio
-        from rasterio.warp import Resampling, calculate_default_transform, reproject
-    except ImportError:
-        raise InputError("reading a DEM needs rasterio: pip install 'drainplan[dem]'",
-                         param="dem") from None
-    from .terrain import RasterSurface
-
-    try:
-        with rasterio.open(path) as ds:
-            if ds.crs is None:
-                raise InputError(f"DEM {path} has no CRS", param="dem")
-            band = ds.read(1).astype(float)
-            nodata = ds.nodata
-            if ds.crs != work_crs:
-                # reproject the grid to the layout's metric CRS
-                tr, w, h = calculate_default_transform(ds.crs, work_crs.to_wkt(), ds.width,
-                                                       ds.height, *ds.bounds)
-                out = np.full((h, w), np.nan)
-                reproject(band, out, src_transform=ds.transform, src_crs=ds.crs,
-                          src_nodata=nodata, dst_transform=tr, dst_crs=work_crs.to_wkt(),
-                          dst_nodata=np.nan, resampling=Resampling.bilinear)
-                return RasterSurface(out, tuple(tr)[:6], None)
-            return RasterSurface(band, tuple(ds.transform)[:6], nodata)
-    except rasterio.errors.RasterioIOError as exc:
-        raise InputError(f"cannot read DEM {path}: {exc}", param="dem") from None
-
-
 def plan_pipes(inp: PipesInputs) -> PipesPlan:
     """Read a layout GeoPackage, build the network and design the pipes."""
     import geopandas as gpd
@@ -118,8 +47,6 @@ def plan_pipes(inp: PipesInputs) -> PipesPlan:
 
     from .gisio import read_layer
 
-    if inp.survey_path and inp.dem_path:
-        raise InputError("give either --survey or --dem, not both", param="survey")
     try:
         layers = {row[0] for row in pyogrio.list_layers(inp.layout_path)}
     except Exception:
@@ -145,7 +72,8 @@ def pipes_from_layers(frames, work_crs, out_crs, inp):
     """Design the pipes of layout layers (GeoDataFrames in any CRS)."""
     import shapely
 
-    from .terrain import PointSurface, check_coverage
+    from .gisio import read_dem, read_survey
+    from .terrain import PointSurface, RasterSurface, check_coverage
 
     if inp.survey_path and inp.dem_path:
         raise InputError("give either a survey or a DEM, not both", param="survey")
@@ -168,7 +96,7 @@ def pipes_from_layers(frames, work_crs, out_crs, inp):
                             z_unit=inp.survey_z_unit, work_crs=work_crs)
         surface = PointSurface(xy, z)
     elif inp.dem_path:
-        surface = _read_dem(inp.dem_path, work_crs)
+        surface = RasterSurface(*read_dem(inp.dem_path, work_crs))
     if surface is not None:
         check_coverage(surface, list(fld.geometry), list(fld["field_id"].astype(str)))
     recv = None
@@ -230,8 +158,7 @@ def _layers(design, runs, mains, work_crs, out_crs):
     main_rows = [r for r in design.reaches if r["kind"] == "main"]
     geoms = []
     for r in main_rows:
-        a = float(r["from"].split()[0])
-        b = float(r["to"].split()[0])
+        a, b = r["main_chainage_m"]
         geoms.append(substring(mains[r["field_id"]], a, b))
     mn = gpd.GeoDataFrame(attrs(main_rows), geometry=geoms, crs=work_crs)
     viol = [v for v in design.violations if v["x"] is not None and np.isfinite(v["x"])]

@@ -234,14 +234,15 @@ def spacing_against_k(rows, *, ax=None, units="metric", title=None):
     """
     import matplotlib.pyplot as plt
 
-    from .units import convert
+    from .units import display_unit, to_display
 
     if ax is None:
         _, ax = plt.subplots(figsize=(6, 4))
     k = np.array([r[0] for r in rows], float)
     L = np.array([r[1] for r in rows], float)
-    ku, lu = ("in/h", "ft") if units == "us" else ("m/d", "m")
-    ax.plot(convert(k, "m/d", ku), convert(L, "m", lu), marker="o", color="#2a6fb0")
+    ku, lu = display_unit("conductivity", units), display_unit("spacing", units)
+    ax.plot(to_display(k, "conductivity", units), to_display(L, "spacing", units), marker="o",
+            color="#2a6fb0")
     ax.set_xscale("log")
     ax.set_xlabel(f"hydraulic conductivity K ({ku})")
     ax.set_ylabel(f"drain spacing ({lu})")

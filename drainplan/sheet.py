@@ -11,7 +11,8 @@ from __future__ import annotations
 
 import io
 import os
-from importlib import resources
+
+from ._templates import template_text
 
 __all__ = ["build_sheet", "read_cautions"]
 
@@ -51,7 +52,7 @@ def _fonts():
 def read_cautions(path=None):
     """Cautions as (title, text) pairs from templates/cautions.txt (or ``path``)."""
     if path is None:
-        text = resources.files("drainplan").joinpath("templates/cautions.txt").read_text("utf-8")
+        text = template_text("cautions.txt")
     else:
         with open(path, encoding="utf-8") as fh:
             text = fh.read()
@@ -137,34 +138,24 @@ def build_sheet(summary, figures_png, path, *, units="metric", paper="A4", logo=
     from reportlab.platypus import (CondPageBreak, Image, PageBreak, Paragraph,
                                     SimpleDocTemplate, Spacer)
 
-    from .units import convert
+    from .units import display_unit, show, to_display
 
     _fonts()
     st = _styles()
     us = units == "us"
-    L_u = "ft" if us else "m"
+    L_u = display_unit("length", units)
 
     def length(v, nd=2):
-        if v is None:
-            return "–"
-        return f"{convert(float(v), 'm', 'ft'):.{nd}f} ft" if us else f"{float(v):.{nd}f} m"
+        return show(v, "length", units, nd)
 
     def area(v_ha):
-        if v_ha is None:
-            return "–"
-        return f"{float(v_ha) * 2.4710538:.2f} acre" if us else f"{float(v_ha):.2f} ha"
+        return show(v_ha, "area", units, 2)
 
     def rate(v):
-        if v is None:
-            return "–"
-        return (f"{convert(float(v), 'm/d', 'in/d'):.3f} in/d" if us
-                else f"{float(v) * 1000:.1f} mm/d")
+        return show(v, "recharge", units, 3 if us else 1)
 
     def cond(v):
-        if v is None:
-            return "–"
-        return (f"{convert(float(v), 'm/d', 'in/h'):.3f} in/h" if us
-                else f"{float(v):.3f} m/d")
+        return show(v, "conductivity", units, 3)
 
     s = summary
     d = s["design"]
@@ -215,9 +206,7 @@ def build_sheet(summary, figures_png, path, *, units="metric", paper="A4", logo=
               "Outlet flow"],
              [str(len(s["fields"])), area(q["field_area_ha"]), str(q["laterals"]),
               length(q["lateral_length_m"], 0), length(q["main_length_m"], 0),
-              area(q["drained_area_ha"]),
-              (f"{q['outlet_flow_l_s'] / 28.316846592:.2f} ft³/s" if us
-               else f"{q['outlet_flow_l_s']:.1f} L/s")]]
+              area(q["drained_area_ha"]), show(q["outlet_flow_l_s"], "flow", units, 2 if us else 1)]]
     story.append(_table(qrows))
     sizes = ", ".join(f"{k}: {length(v, 0)}" for k, v in q["lateral_length_by_size_m"].items())
     msizes = ", ".join(f"{k}: {length(v, 0)}" for k, v in q["main_length_by_size_m"].items())
@@ -243,8 +232,7 @@ def build_sheet(summary, figures_png, path, *, units="metric", paper="A4", logo=
         trows.append([length(r["drain_depth_m"]), length(r.get("steady_spacing_m"), 1),
                       length(r.get("falling_spacing_m"), 1),
                       length(r["governing_spacing_m"], 1),
-                      (f"{per_area * 3.28084 / 2.4710538:.0f} ft/acre" if us
-                       and per_area else f"{per_area:.0f} m/ha" if per_area else "–")])
+                      show(per_area, "density", units, 0)])
     story.append(_table(trows))
 
     # ---- page 3: method, inputs, references, sensitivity
@@ -323,9 +311,9 @@ def build_sheet(summary, figures_png, path, *, units="metric", paper="A4", logo=
     # ---- page 4: pipes (starts on the same page when a useful part of it is left)
     story.append(CondPageBreak(90 * mm))
     story.append(P("Pipe schedule", "h"))
-    qf, qu = (1 / 28.316846592, "ft³/s") if us else (1.0, "L/s")
-    vf, vu = (1 / 0.3048, "ft/s") if us else (1.0, "m/s")
-    zf = 1 / 0.3048 if us else 1.0
+    qf, qu = to_display(1.0, "flow", units), display_unit("flow", units)
+    vf, vu = to_display(1.0, "velocity", units), display_unit("velocity", units)
+    zf = to_display(1.0, "length", units)
     prow = [["Reach", "Length", "Area", f"Flow {qu}", "Grade", "Size", f"Cap. {qu}",
              f"V {vu}", "Used", f"Inverts up/down ({L_u})", "Cover"]]
     for r in s["reaches"]:

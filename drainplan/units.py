@@ -13,7 +13,8 @@ from functools import lru_cache
 
 from .errors import InputError
 
-__all__ = ["KINDS", "parse_quantity", "convert", "display_unit", "UNIT_SYSTEMS"]
+__all__ = ["KINDS", "parse_quantity", "convert", "DISPLAY", "UNIT_SYSTEMS", "display_unit",
+           "to_display", "show"]
 
 #: Quantity kinds: (pint dimensionality, SI unit used inside, example text).
 KINDS = {
@@ -24,13 +25,65 @@ KINDS = {
     "area": ("[length] ** 2", "m**2", "'16 ha', '40 acre' or '1000' (m2)"),
 }
 
-#: Display units by unit system and quantity role.
-UNIT_SYSTEMS = {
-    "metric": {"length": "m", "spacing": "m", "conductivity": "m/d", "recharge": "mm/d",
-               "time": "d", "radius": "cm"},
-    "us": {"length": "ft", "spacing": "ft", "conductivity": "in/h", "recharge": "in/d",
-           "time": "d", "radius": "in"},
+#: Display units by unit system and quantity role: (label, factor from the SI
+#: value drainplan stores). Stored values are metres for lengths, m/d for
+#: conductivity and recharge, days, hectares for areas, m/ha for drain density
+#: L/s for flows and m/s for velocities. Factors are exact from 1 ft = 0.3048 m and 1 in = 0.0254 m;
+#: the acre is the international acre (4046.8564224 m2).
+DISPLAY = {
+    "metric": {"length": ("m", 1.0), "spacing": ("m", 1.0), "radius": ("cm", 100.0),
+               "conductivity": ("m/d", 1.0), "recharge": ("mm/d", 1000.0), "time": ("d", 1.0),
+               "area": ("ha", 1.0), "density": ("m/ha", 1.0), "flow": ("L/s", 1.0),
+               "velocity": ("m/s", 1.0)},
+    "us": {"length": ("ft", 1 / 0.3048), "spacing": ("ft", 1 / 0.3048),
+           "radius": ("in", 1 / 0.0254), "conductivity": ("in/h", 1 / 0.0254 / 24.0),
+           "recharge": ("in/d", 1 / 0.0254), "time": ("d", 1.0),
+           "area": ("acre", 1e4 / 4046.8564224),
+           "density": ("ft/acre", (1 / 0.3048) / (1e4 / 4046.8564224)),
+           "flow": ("ft³/s", 1 / 28.316846592), "velocity": ("ft/s", 1 / 0.3048)},
 }
+#: Unit systems accepted by ``--units`` and the report options.
+UNIT_SYSTEMS = tuple(DISPLAY)
+
+
+def _display(role, system):
+    try:
+        return DISPLAY[system][role]
+    except KeyError:
+        raise InputError(f"unit system {system!r} is unknown; choose one of "
+                         + ", ".join(UNIT_SYSTEMS), param="units") from None
+
+
+def display_unit(role, system="metric"):
+    """Label of the display unit for a quantity role in a unit system.
+
+    Examples
+    --------
+    >>> display_unit("recharge", "us")
+    'in/d'
+    """
+    return _display(role, system)[0]
+
+
+def to_display(value, role, system="metric"):
+    """A stored SI value (float or array) in the display unit of ``role``."""
+    return value * _display(role, system)[1]
+
+
+def show(value, role, system="metric", digits=2):
+    """Format a stored SI value with its display unit; '–' for None or NaN.
+
+    Examples
+    --------
+    >>> show(1.2, "length", "us")
+    '3.94 ft'
+    >>> show(0.01, "recharge", "metric", 1)
+    '10.0 mm/d'
+    """
+    if value is None or value != value:
+        return "–"
+    label, factor = _display(role, system)
+    return f"{float(value) * factor:.{digits}f} {label}"
 
 
 @lru_cache(maxsize=1)
@@ -122,13 +175,3 @@ def convert(value, from_unit, to_unit):
         return value
     ureg = _registry()
     return ureg.Quantity(value, from_unit).to(to_unit).magnitude
-
-
-def display_unit(role, system="metric"):
-    """Display unit for a quantity role ('length', 'spacing', 'conductivity',
-    'recharge', 'time', 'radius') in a unit system ('metric' or 'us')."""
-    try:
-        return UNIT_SYSTEMS[system][role]
-    except KeyError:
-        raise InputError(f"unit system {system!r} is unknown; choose one of "
-                         + ", ".join(UNIT_SYSTEMS), param="units") from None

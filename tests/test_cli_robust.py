@@ -45,3 +45,19 @@ def test_no_traceback(run, tmp_path, args):
     lines = r.stderr.strip().splitlines()
     assert len(lines) == 1 and lines[0].startswith("drainplan: error:"), r.stderr
     assert not [p for p in tmp_path.rglob("*") if p.is_file()]
+
+
+def test_bad_survey_crs(run, tmp_path):
+    from click.testing import CliRunner
+
+    from drainplan.cli import cli
+
+    lay = tmp_path / "layout.gpkg"
+    r = CliRunner().invoke(cli, ["layout", str(DEMO / "fields.geojson"), "--spacing", "18 m",
+                                 "-o", str(lay)])
+    assert r.exit_code == 0
+    out = tmp_path / "s.csv"
+    r = run("pipes", lay, "--coefficient", "10 mm/d", "--survey", DEMO / "survey.csv",
+            "--survey-crs", "EPSG:999999", "-o", out)
+    assert r.exit_code == 2 and "--survey-crs" in r.stderr
+    assert len(r.stderr.strip().splitlines()) == 1 and not out.exists()

@@ -44,6 +44,9 @@ def test_cavalieri(name, bearing):
 
 
 def test_rectangle_exact():
+    # Plane geometry: a 400 m wide rectangle needs ceil(400 / 15) = 27 laterals for every
+    # point to lie within half a spacing of one; balanced strips put equal margins at
+    # both sides.
     lat, _ = scan_laterals([RECT], 0.0, 15.0)     # laterals north-south
     s = np.unique(lat.s.round(6))
     assert len(s) == 27                            # ceil(400 / 15)

@@ -26,6 +26,10 @@ def tilted(xy):
 
 
 def test_tilted_plane_exact_grades_and_mass_balance():
+    # Analytic references: at constant depth below a plane, a pipe's grade is the plane's
+    # slope along it; continuity (mass balance) makes each main reach carry q times the
+    # area upstream of it, and the outlet q times the whole drained area (design flow
+    # Q = DC x A, USDA-NRCS NEH-650 ch. 14).
     runs, mains = comb()
     q = 0.010
     d = design_pipes(runs, mains, PipeOptions(coefficient=q), surface=tilted)
@@ -50,6 +54,8 @@ def test_tilted_plane_exact_grades_and_mass_balance():
 
 
 def test_flat_field_minimum_grade():
+    # On a flat field no grade comes from the ground; the minimum grade of 0.1 % (common
+    # practice, method notes 9.4) must be imposed.
     runs, mains = comb()
     d = design_pipes(runs, mains, PipeOptions(coefficient=0.01, min_grade=0.001),
                      surface=lambda xy: np.full(len(xy), 50.0))

@@ -15,6 +15,9 @@ def plane(xy):
 
 
 def test_linear_interpolation_reproduces_a_plane():
+    # Piecewise-linear (barycentric) interpolation on a triangulation is exact for any plane
+    # (scipy.interpolate.LinearNDInterpolator documentation: linear barycentric
+    # interpolation on the Delaunay triangulation).
     rng = np.random.default_rng(3)
     xy = rng.uniform(0, 500, (200, 2))
     surf = PointSurface(xy, plane(xy))
@@ -25,6 +28,8 @@ def test_linear_interpolation_reproduces_a_plane():
 
 
 def test_fit_plane_and_fall():
+    # Least squares recovers an exact plane; the direction of steepest descent of
+    # z = a x + b y is -(a, b) (the gradient), expressed as a bearing from north.
     rng = np.random.default_rng(4)
     xy = rng.uniform(0, 500, (100, 2))
     a, b, c = fit_plane(xy, plane(xy))
@@ -36,6 +41,8 @@ def test_fit_plane_and_fall():
 
 
 def test_raster_surface_bilinear():
+    # Bilinear interpolation between cell centres is exact for a plane (scipy
+    # RegularGridInterpolator, method "linear").
     xs = np.arange(0, 100, 10.0) + 5
     ys = np.arange(0, 100, 10.0) + 5
     X, Y = np.meshgrid(xs, ys[::-1])                 # north-up grid

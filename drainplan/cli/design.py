@@ -4,12 +4,12 @@ from __future__ import annotations
 
 import json
 import time
-from importlib import resources
 from pathlib import Path
 
 import click
 
-from .options import json_option, shown
+from ..units import show
+from .options import json_option
 
 
 @click.command(short_help="Write a commented starter project file.")
@@ -26,14 +26,14 @@ def init(directory, template, overwrite):
 
         drainplan init myfarm --template vegetables
     """
+    from .._templates import template_text
     from ..gisio import write_atomic
     from ..project import TEMPLATES
 
     d = Path(directory)
     d.mkdir(parents=True, exist_ok=True)
     target = d / "project.toml"
-    text = resources.files("drainplan").joinpath(f"templates/{TEMPLATES[template]}").read_text(
-        "utf-8")
+    text = template_text(TEMPLATES[template])
     write_atomic(target, lambda tmp: Path(tmp).write_text(text, encoding="utf-8"),
                  overwrite=overwrite)
     click.echo(f"wrote {target}: put the field boundaries beside it (fields.geojson), edit "
@@ -80,13 +80,13 @@ def design(ctx, project_path, output, overwrite, as_json):
         return
     d, q = s["design"], s["quantities"]
     u = project.report.get("units", "metric")
-    click.echo(f"Design: drains {shown(d['drain_depth_m'], 'length', u, 2)} deep, "
-               f"{shown(d['spacing_m'], 'length', u, 1)} apart ({d['method']}, "
+    click.echo(f"Design: drains {show(d['drain_depth_m'], 'length', u, 2)} deep, "
+               f"{show(d['spacing_m'], 'length', u, 1)} apart ({d['method']}, "
                f"{d['governing_criterion']} criterion governs)")
-    click.echo(f"Laterals {q['laterals']} ({shown(q['lateral_length_m'], 'length', u)}), mains "
-               f"{shown(q['main_length_m'], 'length', u)}, drained area "
-               f"{shown(q['drained_area_ha'], 'area', u, 2)}, outlet flow "
-               f"{shown(q['outlet_flow_l_s'], 'flow', u, 1 if u == 'metric' else 2)}")
+    click.echo(f"Laterals {q['laterals']} ({show(q['lateral_length_m'], 'length', u, 0)}), mains "
+               f"{show(q['main_length_m'], 'length', u, 0)}, drained area "
+               f"{show(q['drained_area_ha'], 'area', u, 2)}, outlet flow "
+               f"{show(q['outlet_flow_l_s'], 'flow', u, 1 if u == 'metric' else 2)}")
     if s["pipe_problems"]:
         click.echo(f"{len(s['pipe_problems'])} pipe problem(s): see the design sheet")
     click.echo(f"Design sheet: {out / 'design_sheet.pdf'}")

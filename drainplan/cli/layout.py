@@ -8,7 +8,8 @@ from pathlib import Path
 import click
 
 from ..errors import InputError
-from .options import DISPLAY, LENGTH, json_option, shown, units_option
+from ..units import display_unit, show, to_display
+from .options import LENGTH, json_option, units_option
 
 
 def _parse_direction(value):
@@ -181,21 +182,22 @@ def layout_summary(plan, out=None):
 
 
 def _text(plan, out, plot_path, units="metric"):
-    d = DISPLAY[units]
-    fa, fl, fd = d["area"][1], d["length"][1], d["density"][1]
-    head = (f"{'field':<10} {d['area'][0]:>7} {'bearing':>8} {'laterals':>8} "
-            f"{'lateral ' + d['length'][0]:>10} {'main ' + d['length'][0]:>8} "
-            f"{d['density'][0]:>8} {'dropped':>7} {'no route':>8}")
-    lines = [f"Layout at {shown(plan.layout.spacing, 'length', units, 1)} spacing", head]
+    unit = {role: display_unit(role, units) for role in ("area", "length", "density")}
+    head = (f"{'field':<10} {unit['area']:>7} {'bearing':>8} {'laterals':>8} "
+            f"{'lateral ' + unit['length']:>10} {'main ' + unit['length']:>8} "
+            f"{unit['density']:>8} {'dropped':>7} {'no route':>8}")
+    lines = [f"Layout at {show(plan.layout.spacing, 'length', units, 1)} spacing", head]
     rows = plan.per_field + [dict(plan.totals, field_id="total", bearing_deg=None)]
     for r in rows:
         bearing = "" if r["bearing_deg"] is None else f"{r['bearing_deg']:.1f}"
-        lines.append(f"{r['field_id']:<10} {r['field_area_ha'] * fa:>7.2f} {bearing:>8} "
-                     f"{r['laterals']:>8d} {r['lateral_length_m'] * fl:>10.0f} "
-                     f"{r['main_length_m'] * fl:>8.0f} {r['drain_density_m_per_ha'] * fd:>8.0f} "
+        lines.append(f"{r['field_id']:<10} {to_display(r['field_area_ha'], 'area', units):>7.2f} "
+                     f"{bearing:>8} {r['laterals']:>8d} "
+                     f"{to_display(r['lateral_length_m'], 'length', units):>10.0f} "
+                     f"{to_display(r['main_length_m'], 'length', units):>8.0f} "
+                     f"{to_display(r['drain_density_m_per_ha'], 'density', units):>8.0f} "
                      f"{r['dropped_pieces']:>7d} {r['unconnected_pieces']:>8d}")
     t = plan.totals
-    lines.append(f"connectors (non-perforated): {shown(t['connector_length_m'], 'length', units)}")
+    lines.append(f"connectors (non-perforated): {show(t['connector_length_m'], 'length', units, 0)}")
     lines.append(f"written: {out}" + (f", {plot_path}" if plot_path else ""))
     lines += ["Notes"] + [f"  - {n}" for n in plan.notes]
     lines.append("  - Locate buried utilities before trenching and check setbacks (wells, "

@@ -8,7 +8,8 @@ from pathlib import Path
 import click
 
 from ..errors import InputError
-from .options import LENGTH, RATE, json_option, shown, units_option
+from ..units import show
+from .options import LENGTH, RATE, json_option, units_option
 
 
 @click.command(short_help="Size and grade the pipes of a layout.")
@@ -155,12 +156,12 @@ def pipes_summary(plan):
 def _text(d, output, units="metric"):
     lines = ["Quantity take-off"]
     for r in d.takeoff:
-        qty = (f"{shown(r['length_m'], 'length', units, 1):>12}" if r["length_m"]
+        qty = (f"{show(r['length_m'], 'length', units, 1):>12}" if r["length_m"]
                else f"{r['count']:>8d} pcs")
         lines.append(f"  {r['kind']:<8} {r['material']:<22} {r['size']:<36} {qty}")
     t = d.totals
-    flow = shown(t["outlet_flow_l_s"], "flow", units, 1 if units == "metric" else 2)
-    lines.append(f"drained area {shown(t['drained_area_ha'], 'area', units, 2)}, outlet flow "
+    flow = show(t["outlet_flow_l_s"], "flow", units, 1 if units == "metric" else 2)
+    lines.append(f"drained area {show(t['drained_area_ha'], 'area', units, 2)}, outlet flow "
                  f"{flow}; schedule written to {output} (SI units)")
     if d.violations:
         lines.append(f"{len(d.violations)} problem(s):")

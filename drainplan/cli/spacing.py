@@ -11,7 +11,7 @@ import numpy as np
 from ..errors import ConvergenceWarning, DrainplanError, InputError
 from ..spacing import METHODS, drain_spacing
 from ..spacing.drain_radius import drain_radius_table, effective_radius
-from ..units import convert, display_unit, parse_quantity
+from ..units import display_unit, parse_quantity, show, to_display
 from .options import FRACTION, LENGTH, RATE, TIME, json_option, units_option
 
 
@@ -233,13 +233,6 @@ _TITLES = {"hooghoudt": "Hooghoudt steady state", "ernst": "Ernst, layered soil"
            "kirkham": "Kirkham steady rain", "glover-dumm": "Glover-Dumm falling water table"}
 
 
-def _fmt(value, role, units, digits=2):
-    unit = display_unit(role, units)
-    si = {"length": "m", "spacing": "m", "radius": "m", "conductivity": "m/d",
-          "recharge": "m/d", "time": "d"}[role]
-    return f"{float(convert(value, si, unit)):.{digits}f} {unit}"
-
-
 def _as_text(inputs, r, sweep_rows, units, check=None):
     rows = [("method", _TITLES[r.method])]
     labels = [("drain_depth", "drain depth", "length", 2),
@@ -257,57 +250,58 @@ def _as_text(inputs, r, sweep_rows, units, check=None):
               ("days", "time allowed", "time", 2)]
     for key, label, role, digits in labels:
         if inputs.get(key) is not None:
-            rows.append((label, _fmt(inputs[key], role, units, digits)))
+            rows.append((label, show(inputs[key], role, units, digits)))
     if inputs.get("drainable_porosity") is not None:
         rows.append(("drainable porosity", f"{inputs['drainable_porosity']:.3f}"))
     if inputs["method"] == "glover-dumm":
         rows.append(("initial shape", inputs["shape"]))
     lines = ["Inputs"] + [f"  {a:<30} {b}" for a, b in rows]
-    res = [("drain spacing", _fmt(r.spacing, "spacing", units, 1)),
-           ("equivalent depth d", _fmt(r.equivalent_depth, "length", units, 2))
+    res = [("drain spacing", show(r.spacing, "spacing", units, 1)),
+           ("equivalent depth d", show(r.equivalent_depth, "length", units, 2))
            if r.equivalent_depth is not None else None,
-           ("depth to barrier below drains", _fmt(r.depth_to_barrier, "length", units, 2)),
+           ("depth to barrier below drains", show(r.depth_to_barrier, "length", units, 2)),
            ("initial midway head above drains" if r.method == "glover-dumm"
-            else "midway head above drains", _fmt(r.head, "length", units, 2))]
+            else "midway head above drains", show(r.head, "length", units, 2))]
     if r.flow_depth is not None:
-        res.append(("flow depth used", _fmt(r.flow_depth, "length", units, 2)))
+        res.append(("flow depth used", show(r.flow_depth, "length", units, 2)))
     ex = r.extra
     if ex.get("drainage_intensity") is not None:
         res.append(("drainage intensity (wt at surface)",
-                    _fmt(ex["drainage_intensity"], "recharge", units, 1)))
+                    show(ex["drainage_intensity"], "recharge", units, 1)))
     if ex.get("reaction_factor_per_d") is not None:
         res.append(("reaction factor alpha", f"{float(ex['reaction_factor_per_d']):.3f} 1/d"))
         res.append(("alpha t", f"{float(ex['alpha_t']):.2f}"))
-        res.append(("series midway height at end", _fmt(ex["final_head_series_m"], "length",
+        res.append(("series midway height at end", show(ex["final_head_series_m"], "length",
                                                         units, 3)))
     if ex.get("geometry_factor") is not None:
         res.append(("geometry factor a", f"{float(ex['geometry_factor']):.2f}"))
         for part in ("vertical", "horizontal", "radial"):
-            res.append((f"head loss, {part}", _fmt(ex[f"head_loss_{part}_m"], "length",
+            res.append((f"head loss, {part}", show(ex[f"head_loss_{part}_m"], "length",
                                                    units, 3)))
     lines += ["Result"] + [f"  {a:<34} {b}" for a, b in (x for x in res if x)]
     if sweep_rows is not None:
         ku, su = display_unit("conductivity", units), display_unit("spacing", units)
         lines += ["Spacing against K", f"  {'K (' + ku + ')':>14} {'spacing (' + su + ')':>16}"]
         for kv, L in sweep_rows:
-            ks = float(convert(kv, "m/d", ku))
-            ls = "no solution" if not np.isfinite(L) else f"{float(convert(L, 'm', su)):.1f}"
+            ks = float(to_display(kv, "conductivity", units))
+            ls = "no solution" if not np.isfinite(L) else \
+                f"{float(to_display(L, 'spacing', units)):.1f}"
             lines.append(f"  {ks:>14.3f} {ls:>16}")
     if check is not None:
         verdict = "MEETS the criterion" if check["meets"] else "does NOT meet the criterion"
         lines += ["Check of the proposed spacing",
-                  f"  {'proposed spacing':<34} {_fmt(check['proposed_spacing_m'], 'spacing', units, 1)}"
+                  f"  {'proposed spacing':<34} {show(check['proposed_spacing_m'], 'spacing', units, 1)}"
                   f" -> {verdict} (widest that meets it: "
-                  f"{_fmt(check['required_spacing_m'], 'spacing', units, 1)})"]
+                  f"{show(check['required_spacing_m'], 'spacing', units, 1)})"]
         if "midway_water_table_depth_m" in check:
             lines.append(f"  {'midway water-table depth':<34} "
-                         f"{_fmt(check['midway_water_table_depth_m'], 'length', units, 2)} "
+                         f"{show(check['midway_water_table_depth_m'], 'length', units, 2)} "
                          "under the design recharge")
             lines.append(f"  {'drainage rate at required depth':<34} "
-                         f"{_fmt(check['drainage_rate_m_per_d'], 'recharge', units, 2)}")
+                         f"{show(check['drainage_rate_m_per_d'], 'recharge', units, 2)}")
         else:
             lines.append(f"  {'midway depth after the time allowed':<34} "
-                         f"{_fmt(check['midway_depth_after_days_m'], 'length', units, 2)}")
+                         f"{show(check['midway_depth_after_days_m'], 'length', units, 2)}")
     lines += ["Notes"] + [f"  - {n}" for n in r.notes]
     lines.append("  - Check the design against local codes and have it reviewed by a "
                  "qualified professional before construction.")

@@ -7,12 +7,11 @@ may always give a radius directly instead.
 
 from __future__ import annotations
 
-import csv
 from functools import lru_cache
-from importlib import resources
 
 import numpy as np
 
+from .._templates import template_rows
 from .._validate import as_float_arrays, require_positive, scalar_or_array
 from ..errors import InputError
 
@@ -26,11 +25,9 @@ _SQUARE_CAPACITY = 0.5901702995
 def drain_radius_table():
     """Rows of the effective-radius table as a tuple of dicts (name, description,
     radius_m, source, confidence)."""
-    text = resources.files("drainplan").joinpath("templates/drain_radius.csv").read_text("utf-8")
-    rows = []
-    for row in csv.DictReader(text.splitlines()):
+    rows = template_rows("drain_radius.csv")
+    for row in rows:
         row["radius_m"] = float(row["radius_m"])
-        rows.append(row)
     return tuple(rows)
 
 
