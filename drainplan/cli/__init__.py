@@ -26,6 +26,8 @@ def _option_names(group):
     """Long option names of every command in the group (to name an input by its option)."""
     names = set()
     for command in group.commands.values():
+        if isinstance(command, click.Group):          # subcommands (drainplan soil ...)
+            names |= _option_names(command)
         for p in command.params:
             names.update(o for o in getattr(p, "opts", []) if o.startswith("--"))
     return names
@@ -97,9 +99,10 @@ def _register():
     from .design import design, init
     from .layout import layout
     from .pipes import pipes
+    from .soil import soil
     from .spacing import spacing
 
-    for command in (spacing, layout, pipes, init, design):
+    for command in (spacing, layout, pipes, init, design, soil):
         cli.add_command(command)
 
 

@@ -13,6 +13,8 @@ from ..spacing import METHODS, drain_spacing
 from ..spacing.drain_radius import drain_radius_table, effective_radius
 from ..units import display_unit, parse_quantity, show, to_display
 from .options import FRACTION, LENGTH, RATE, TIME, json_option, units_option
+from .uncertainty_options import (run_uncertainty, uncertainty_json, uncertainty_options,
+                                  uncertainty_text)
 
 
 class DrainRadius(click.ParamType):
@@ -98,11 +100,12 @@ def _parse_sweep(text):
 @click.option("--overwrite", is_flag=True, help="Replace an existing --plot file.")
 @units_option
 @json_option
+@uncertainty_options
 def spacing(method, k, k_above, k_below, interface_depth, k_vertical, geometry_factor,
             drain_depth, barrier_depth, drain_radius, recharge, water_table_depth,
             initial_depth, final_depth, days, drainable_porosity, initial_shape, flow_depth,
             equivalent_depth_method, sweep_k, check_spacing, plot_path, overwrite, units,
-            as_json):
+            as_json, uncertainty):
     """Drain spacing for one site.
 
     Steady methods (hooghoudt, ernst, kirkham) need --recharge and
@@ -114,6 +117,9 @@ def spacing(method, k, k_above, k_below, interface_depth, k_vertical, geometry_f
         drainplan spacing --method hooghoudt --k 0.5 --drain-depth 1.2
         --barrier-depth 4 --drain-radius "5 cm" --recharge "10 mm/d"
         --water-table-depth 0.6
+
+    With --k-cv (K lognormal, the given K its median) it also gives the
+    spacing met with --confidence and the probability curve.
     """
     inputs = dict(method=method, drain_depth=drain_depth, barrier_depth=barrier_depth,
                   drain_radius=drain_radius, k=k, k_above=k_above, k_below=k_below,
@@ -140,15 +146,24 @@ def spacing(method, k, k_above, k_below, interface_depth, k_vertical, geometry_f
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", ConvergenceWarning)
             check = run_check(spacing=check_spacing, **inputs)
+    # uncertainty (--k-cv, --confidence, ranges): sampled through the vectorised core
+    unc = run_uncertainty(inputs, uncertainty, check_spacing)
+    if unc is not None and check is not None:
+        check["probability_meets"] = unc.probability_proposed
     if plot_path:
         _write_plot(plot_path, sweep_rows, units, method, overwrite)
     if as_json:
         out = _as_json(inputs, result, sweep_rows)
         if check is not None:
             out["check"] = check
+        if unc is not None:
+            out.update(uncertainty_json(unc, uncertainty["k_cv"]))
         click.echo(json.dumps(out, indent=2))
     else:
-        click.echo(_as_text(inputs, result, sweep_rows, units, check))
+        text = _as_text(inputs, result, sweep_rows, units, check)
+        if unc is not None:
+            text += "\n" + "\n".join(uncertainty_text(unc, units))
+        click.echo(text)
 
 
 def _write_plot(path, rows, units, method, overwrite):
