@@ -30,8 +30,8 @@ LAYERS = [
     {"geometry", "pipes", "terrain"},
     {"pipe_design"},
     {"gisio", "layout_plan", "pipes_plan"},
-    {"project", "design"},
-    {"plots", "sheet", "outputs"},
+    {"project", "design", "check"},
+    {"plots", "sheet", "outputs", "check_sheet"},
     {"cli", "__main__"},
 ]
 
