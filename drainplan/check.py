@@ -560,6 +560,15 @@ def check_proposal(project, proposal, *, units=None, progress=None):
         for i, h in enumerate(lat_rows["field_hint"]):
             if net.lateral_main[i] < 0 and h in hint_main:
                 net.lateral_main[i] = hint_main[h]
+    if elev is not None:
+        # a lateral that reaches no main drains to its lower end
+        free = np.flatnonzero(net.lateral_main < 0)
+        if free.size:
+            za = elev(net.lateral_junction[free])
+            zb = elev(net.lateral_upstream[free])
+            swap = free[zb < za]
+            net.lateral_junction[swap], net.lateral_upstream[swap] = (
+                net.lateral_upstream[swap].copy(), net.lateral_junction[swap].copy())
     notes += net.notes
 
     # --- ids
