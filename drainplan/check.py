@@ -63,9 +63,9 @@ EDGE_TREATMENT = (
 
 def _pipe_lib():
     """The pipe hydraulics module (one place to change if it moves)."""
-    from . import pipes
+    from .network import hydraulics
 
-    return pipes
+    return hydraulics
 
 
 # --------------------------------------------------------------------------- criteria
