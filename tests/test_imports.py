@@ -57,8 +57,8 @@ LAYERS = [
     {"geometry", "terrain"},
     {"network", "pipes", "pipe_design"},          # pipes, pipe_design: aliases of network
     {"gisio", "layout_plan", "pipes_plan", "network.plan"},
-    {"project", "design", "field_tests"},
-    {"plots", "sheet", "outputs"},
+    {"project", "design", "check", "field_tests"},
+    {"plots", "sheet", "outputs", "check_sheet"},
     {"cli", "__main__"},
 ]
 

@@ -50,6 +50,7 @@ COMMANDS = {
     "pipes": ("pipes", "pipes", "Size and grade the pipes of a layout."),
     "init": ("design", "init", "Write a commented starter project file."),
     "design": ("design", "design", "Run the whole design from a project file."),
+    "check": ("check", "check", "Check a contractor's proposal against the project's criteria."),
     "soil": ("soil", "soil",
              "Soil inputs: auger-hole tests, texture estimates, drainable porosity."),
 }

@@ -130,7 +130,7 @@ def spacing(method, k, k_above, k_below, interface_depth, k_vertical, geometry_f
                   flow_depth=flow_depth, equivalent_depth_method=equivalent_depth_method,
                   geometry_factor=geometry_factor)
     _check_method_options(inputs)
-    sweep = _parse_sweep(sweep_k) if sweep_k else None
+    sweep = _parse_sweep(sweep_k) if sweep_k is not None else None
     if plot_path and sweep is None:
         raise InputError("--plot draws the --sweep-k curve; give --sweep-k too", param="plot")
     result = _solve(inputs)
@@ -303,15 +303,17 @@ def _as_text(inputs, r, sweep_rows, units, check=None):
                 f"{float(to_display(L, 'spacing', units)):.1f}"
             lines.append(f"  {ks:>14.3f} {ls:>16}")
     if check is not None:
-        verdict = "MEETS the criterion" if check["meets"] else "does NOT meet the criterion"
-        lines += ["Check of the proposed spacing",
-                  f"  {'proposed spacing':<34} {show(check['proposed_spacing_m'], 'spacing', units, 1)}"
-                  f" -> {verdict} (widest that meets it: "
-                  f"{show(check['required_spacing_m'], 'spacing', units, 1)})"]
+        lines += ["Check of the proposed spacing", "  " + check_verdict_text(check, units)]
         if "midway_water_table_depth_m" in check:
-            lines.append(f"  {'midway water-table depth':<34} "
-                         f"{show(check['midway_water_table_depth_m'], 'length', units, 2)} "
-                         "under the design recharge")
+            if check.get("ponding"):
+                lines.append(f"  {'midway water table':<34} at the surface: ponding (the "
+                             "steady formula would put it "
+                             f"{show(check['height_above_surface_m'], 'length', units, 2)} "
+                             "above the ground; the excess ponds or runs off)")
+            else:
+                lines.append(f"  {'midway water-table depth':<34} "
+                             f"{show(check['midway_water_table_depth_m'], 'length', units, 2)} "
+                             "under the design recharge")
             lines.append(f"  {'drainage rate at required depth':<34} "
                          f"{show(check['drainage_rate_m_per_d'], 'recharge', units, 2)}")
         else:
@@ -321,3 +323,15 @@ def _as_text(inputs, r, sweep_rows, units, check=None):
     lines.append("  - Check the design against local codes and have it reviewed by a "
                  "qualified professional before construction.")
     return "\n".join(lines)
+
+
+def check_verdict_text(check, units="metric"):
+    """'spacing 21.3 m, allowed 24.6 m: meets with 13 % to spare' (or 'fails by ...')."""
+    prop = show(check["proposed_spacing_m"], "spacing", units, 1)
+    if check["required_spacing_m"] is None or not np.isfinite(check["required_spacing_m"]):
+        return f"spacing {prop}: no spacing meets the criterion: fails"
+    req = show(check["required_spacing_m"], "spacing", units, 1)
+    m = check.get("margin_pct")
+    if check["meets"]:
+        return f"spacing {prop}, allowed {req}: MEETS the criterion with {m:.0f} % to spare"
+    return f"spacing {prop}, allowed {req}: does NOT meet the criterion ({-m:.0f} % too wide)"
