@@ -57,6 +57,14 @@ def render_figures(result):
         falling_water_table(fd, axes=axes)
         fig.tight_layout()
         out["falling"] = _png(fig)
+    if "probability" in fd:          # spacing under uncertainty
+        from .plots import probability_curve
+
+        fig, ax = plt.subplots(figsize=(8, 2.8))
+        probability_curve(fd["probability"], ax=ax,
+                          units=result.project.report.get("units", "metric"))
+        fig.tight_layout()
+        out["probability"] = _png(fig)
     fig, axes = plt.subplots(1, 2, figsize=(8, 2.8))
     if key_profiles(result.pipes_plan.design, axes=axes) is not None:
         fig.tight_layout()

@@ -250,3 +250,47 @@ def spacing_against_k(rows, *, ax=None, units="metric", title=None):
     if title:
         ax.set_title(title, fontsize=10)
     return ax
+
+
+def probability_curve(data, *, ax=None, units="metric"):
+    """Probability that a drain spacing meets the design criteria, against spacing.
+
+    Parameters
+    ----------
+    data : dict
+        ``spacings`` [m] and ``probability`` arrays, ``confidence``,
+        ``spacing_at_confidence`` [m], ``design_spacing`` [m], ``varied``
+        (names of the inputs that were sampled); as made by
+        :func:`drainplan.design.design` (``figures["probability"]``).
+    units : {"metric", "us"}
+    """
+    import matplotlib.pyplot as plt
+
+    from .units import display_unit, to_display
+
+    if ax is None:
+        _, ax = plt.subplots(figsize=(8, 3))
+    lu = display_unit("spacing", units)
+    x = to_display(np.asarray(data["spacings"], float), "spacing", units)
+    ax.plot(x, data["probability"], color="#2a6fb0", linewidth=1.6,
+            label="probability of meeting the criteria")
+    c, Lc = data["confidence"], data["spacing_at_confidence"]
+    if np.isfinite(Lc):
+        xc = float(to_display(Lc, "spacing", units))
+        ax.axhline(c, color="#888888", linestyle=":", linewidth=0.8)
+        ax.axvline(xc, color="#888888", linestyle=":", linewidth=0.8)
+        ax.annotate(f"{c * 100:.0f} %: {xc:.1f} {lu}", (xc, c), xytext=(6, 6),
+                    textcoords="offset points", fontsize=7)
+    xd = float(to_display(data["design_spacing"], "spacing", units))
+    pd = float(np.interp(xd, x, data["probability"]))
+    ax.plot([xd], [pd], marker="o", color="#c0392b", linestyle="none",
+            label=f"design spacing {xd:.1f} {lu}")
+    ax.set_ylim(-0.02, 1.02)
+    ax.set_xlabel(f"drain spacing ({lu})")
+    ax.set_ylabel("probability")
+    ax.grid(True, color="#dddddd", linewidth=0.5)
+    ax.legend(fontsize=7, frameon=False, loc="upper right")
+    ax.set_title("Probability that a spacing meets the criteria (varied: "
+                 + ", ".join(data["varied"]) + ")", fontsize=9)
+    return ax
+
