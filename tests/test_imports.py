@@ -27,11 +27,11 @@ def test_cli_help_does_not_load_heavy_libraries():
 LAYERS = [
     {"errors", "units", "_solve", "_validate", "_templates"},
     {"spacing", "soil"},
-    {"geometry", "pipes", "terrain"},
+    {"geometry", "pipes", "terrain", "soilmap"},
     {"pipe_design"},
     {"gisio", "layout_plan", "pipes_plan"},
-    {"project", "design"},
-    {"plots", "sheet", "outputs"},
+    {"project", "design", "batch", "engines"},
+    {"plots", "sheet", "outputs", "batch_map"},
     {"cli", "__main__"},
 ]
 

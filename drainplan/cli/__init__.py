@@ -94,12 +94,13 @@ def cli(ctx, verbose, quiet):
 
 
 def _register():
+    from .batch import batch
     from .design import design, init
     from .layout import layout
     from .pipes import pipes
     from .spacing import spacing
 
-    for command in (spacing, layout, pipes, init, design):
+    for command in (spacing, layout, pipes, init, design, batch):
         cli.add_command(command)
 
 
