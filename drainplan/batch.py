@@ -381,7 +381,7 @@ def _layout_api():
     """The layout and pipe functions a batch uses (one place to follow their moves)."""
     from .geometry.fields import check_fields
     from .geometry.layout import LayoutOptions, layout_fields
-    from .pipes import pipe_series, select_size
+    from .network.hydraulics import pipe_series, select_size
 
     return check_fields, LayoutOptions, layout_fields, pipe_series, select_size
 
