@@ -25,7 +25,7 @@ def test_cli_help_does_not_load_heavy_libraries():
 
 # Layers, lowest first (DEVELOPERS.md); a module may import only its own layer or lower.
 LAYERS = [
-    {"errors", "units", "_solve", "_validate", "_templates"},
+    {"errors", "units", "_solve", "_validate", "_templates", "_text"},
     {"spacing", "soil"},
     {"geometry", "pipes", "terrain"},
     {"pipe_design"},
