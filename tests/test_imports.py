@@ -3,6 +3,8 @@
 import subprocess
 import sys
 
+import pytest
+
 
 def _loaded_after(statement):
     code = f"import sys; {statement}; print(' '.join(sorted(sys.modules)))"
@@ -11,27 +13,52 @@ def _loaded_after(statement):
     return set(out.stdout.split())
 
 
-def test_design_core_is_light():
+def test_package_import_is_light():
+    """`import drainplan` loads no numpy: the design core is re-exported lazily."""
     mods = _loaded_after("import drainplan")
-    heavy = {"click", "shapely", "geopandas", "matplotlib", "reportlab", "pint", "pyproj"}
+    heavy = {"numpy", "scipy", "click", "shapely", "geopandas", "matplotlib", "reportlab",
+             "pint", "pyproj"}
     assert not heavy & {m.split(".")[0] for m in mods}
+
+
+def test_design_core_is_light():
+    mods = _loaded_after("import drainplan as dp; dp.hooghoudt_spacing; dp.kirkham_f")
+    tops = {m.split(".")[0] for m in mods}
+    assert "numpy" in tops and "drainplan.spacing.hooghoudt" in mods
+    heavy = {"click", "shapely", "geopandas", "matplotlib", "reportlab", "pint", "pyproj"}
+    assert not heavy & tops
+
+
+def test_package_reexports_the_design_core():
+    import drainplan
+    import drainplan.spacing
+
+    assert set(drainplan._CORE) == set(drainplan.spacing.__all__)
+    for name in drainplan.spacing.__all__:
+        assert getattr(drainplan, name) is getattr(drainplan.spacing, name)
+        assert name in drainplan.__all__ and name in dir(drainplan)
+    with pytest.raises(AttributeError):
+        drainplan.no_such_function
 
 
 def test_cli_help_does_not_load_heavy_libraries():
     mods = _loaded_after("from drainplan.cli import cli")
-    heavy = {"shapely", "geopandas", "matplotlib", "reportlab", "pint", "pyproj"}
+    heavy = {"numpy", "shapely", "geopandas", "matplotlib", "reportlab", "pint", "pyproj"}
+    assert not heavy & {m.split(".")[0] for m in mods}
+    mods = _loaded_after("from drainplan.cli import main\ntry:\n    main(['--help'])\n"
+                         "except SystemExit:\n    pass")
     assert not heavy & {m.split(".")[0] for m in mods}
 
 
 # Layers, lowest first (DEVELOPERS.md); a module may import only its own layer or lower.
 LAYERS = [
-    {"errors", "units", "_solve", "_validate", "_templates"},
-    {"spacing", "soil"},
-    {"geometry", "terrain"},
+    {"errors", "units", "_solve", "_validate", "_templates", "_text"},
+    {"spacing", "soil", "auger_hole", "pedotransfer", "uncertainty"},
+    {"geometry", "terrain", "soilmap"},
     {"network", "pipes", "pipe_design"},          # pipes, pipe_design: aliases of network
     {"gisio", "layout_plan", "pipes_plan", "network.plan"},
-    {"project", "design"},
-    {"plots", "sheet", "outputs"},
+    {"project", "design", "check", "field_tests", "batch", "engines"},
+    {"plots", "sheet", "outputs", "check_sheet", "batch_map"},
     {"cli", "__main__"},
 ]
 
