@@ -29,7 +29,7 @@ LAYERS = [
     {"spacing", "soil"},
     {"geometry", "pipes", "terrain"},
     {"pipe_design"},
-    {"gisio", "layout_plan", "pipes_plan"},
+    {"gisio", "layout_plan", "pipes_plan", "weather", "simulation_plan"},
     {"project", "design"},
     {"plots", "sheet", "outputs"},
     {"cli", "__main__"},

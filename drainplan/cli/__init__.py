@@ -97,9 +97,10 @@ def _register():
     from .design import design, init
     from .layout import layout
     from .pipes import pipes
+    from .simulate import simulate
     from .spacing import spacing
 
-    for command in (spacing, layout, pipes, init, design):
+    for command in (spacing, layout, pipes, init, design, simulate):
         cli.add_command(command)
 
 
