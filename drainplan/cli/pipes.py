@@ -82,8 +82,8 @@ def pipes(layout_path, coefficient, survey_path, survey_crs, survey_z_unit, dem_
         drainplan pipes layout.gpkg --coefficient "10 mm/d" --survey
         demo_fields/survey.csv --survey-crs EPSG:4326 -o schedule.csv
     """
-    from ..pipe_design import PipeOptions
-    from ..pipes_plan import PipesInputs, plan_pipes
+    from ..network.design import PipeOptions
+    from ..network.plan import PipesInputs, plan_pipes
 
     if not Path(layout_path).exists():
         raise InputError(f"layout file not found: {layout_path}", param="layout")
@@ -118,7 +118,7 @@ def pipes(layout_path, coefficient, survey_path, survey_crs, survey_z_unit, dem_
 def write_pipes(plan, output, *, gpkg_path=None, plot_path=None, overwrite=False):
     """Write the schedule CSV and optionally the GeoPackage and the profile PNG."""
     from ..gisio import write_atomic, write_layers
-    from ..pipes_plan import schedule_csv
+    from ..network.plan import schedule_csv
 
     text = schedule_csv(plan.design)
     write_atomic(output, lambda tmp: Path(tmp).write_text(text, encoding="utf-8"),
