@@ -53,6 +53,7 @@ COMMANDS = {
     "check": ("check", "check", "Check a contractor's proposal against the project's criteria."),
     "soil": ("soil", "soil",
              "Soil inputs: auger-hole tests, texture estimates, drainable porosity."),
+    "batch": ("batch", "batch", "Design many fields at once, each with its own soil."),
     "simulate": ("simulate", "simulate",
                  "Simulate the water table between drains over a weather record."),
 }
