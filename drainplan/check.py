@@ -52,6 +52,9 @@ PROPOSAL_KEYS = {"name": "text", "lateral_spacing": "length", "depth": "length",
                  "envelope": "radius", "lines": "path", "layer": "text", "crs": "text",
                  "contractor": "text", "notes": "text"}
 
+#: A lateral end (or a main end) this close to a main joins it [m].
+JOIN_TOLERANCE = 3.0
+
 EDGE_TREATMENT = (
     "Local spacing is the perpendicular distance to the nearest roughly parallel lateral "
     "of the same field, measured every 5 m along each lateral (median). An edge lateral "
@@ -553,7 +556,7 @@ def check_proposal(project, proposal, *, units=None, progress=None):
         def elev(xy):
             return np.asarray(surface(np.asarray(xy, float)), float)
     net = join_network(shapely.force_2d(lat_g), shapely.force_2d(main_g),
-                       outlet=outlet_pts, elevation_of=elev)
+                       tolerance=JOIN_TOLERANCE, outlet=outlet_pts, elevation_of=elev)
     if source == "numbers" and main_g.size:
         # layout pieces reach their main through connectors: join by field
         hint_main = {h: i for i, h in enumerate(main_rows["field_hint"])}
@@ -714,8 +717,8 @@ def check_proposal(project, proposal, *, units=None, progress=None):
     main_flow = coef * main_area / 86400.0
     unjoined = int(((net.lateral_main < 0) & inside).sum()) if nm else 0
     if nm and unjoined:
-        notes.append(f"{unjoined} lateral(s) end more than 3 m from every main: their flow "
-                     "is not counted in any main")
+        notes.append(f"{unjoined} lateral(s) end more than {JOIN_TOLERANCE:g} m from every "
+                     "main: they drain nowhere and their flow is not counted in any main")
     if nm == 0:
         notes.append("the proposal draws no main: main sizes not checked")
 
@@ -890,6 +893,17 @@ def check_proposal(project, proposal, *, units=None, progress=None):
                       show(vmax, "velocity", u, 2), m, at_most=True),
                   "project maximum velocity (pipes.max_velocity)", mask=main_grade_checked,
                   unit="m/s")
+    if nm:
+        gap = shapely.distance(shapely.points(net.lateral_junction),
+                               shapely.union_all(shapely.force_2d(main_g)))
+        gap = np.where(net.lateral_main >= 0, 0.0, gap)
+        add_check("lateral joins a main", "network", gap, JOIN_TOLERANCE, lat_ids, True,
+                  lat_fail, lambda w, ok, m: (
+                      f"lateral end {show(gap[w], 'length', u, 1)} from the nearest main, "
+                      f"allowed {show(JOIN_TOLERANCE, 'length', u, 1)}: "
+                      + ("meets" if ok else "fails (drains nowhere: add a sub-main)")),
+                  "drawn network: a lateral end within 3 m of a main joins it",
+                  mask=inside, unit="m")
     criteria += pipe_entries
     not_checked = []
     if all(s is None for s in lat_size):

@@ -46,7 +46,8 @@ def assign_fields(lines, fields):
     Examples
     --------
     >>> f = np.array([shapely.box(0, 0, 10, 10), shapely.box(10, 0, 20, 10)])
-    >>> ln = np.array([shapely.LineString([(1, 5), (12, 5)]), shapely.LineString([(30, 5), (40, 5)])])
+    >>> ln = np.array([shapely.LineString([(1, 5), (12, 5)]),
+    ...                shapely.LineString([(30, 5), (40, 5)])])
     >>> assign_fields(ln, f).tolist()
     [0, -1]
     """
