@@ -33,6 +33,8 @@ def _option_names(group):
     """Long option names of every command in the group (to name an input by its option)."""
     names = set()
     for command in group.commands.values():
+        if isinstance(command, click.Group):          # subcommands (drainplan soil ...)
+            names |= _option_names(command)
         for p in command.params:  # the commands loaded so far
             names.update(o for o in getattr(p, "opts", []) if o.startswith("--"))
     return names
@@ -49,6 +51,8 @@ COMMANDS = {
     "init": ("design", "init", "Write a commented starter project file."),
     "design": ("design", "design", "Run the whole design from a project file."),
     "check": ("check", "check", "Check a contractor's proposal against the project's criteria."),
+    "soil": ("soil", "soil",
+             "Soil inputs: auger-hole tests, texture estimates, drainable porosity."),
 }
 
 #: Environment variables that size the thread pools of BLAS and OpenMP libraries.
