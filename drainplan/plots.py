@@ -14,7 +14,8 @@ __all__ = ["plan_map", "save_figure"]
 _STYLE = {
     "field_edge": "#3b3b3b", "field_fill": "#f4f1e8", "lateral": "#2a6fb0",
     "connector": "#8a8a8a", "main": "#1b1b1b", "outlet": "#c0392b",
-    "exclusion": "#b9b9b9", "unconnected": "#d98c1a",
+    "exclusion": "#b9b9b9", "unconnected": "#d98c1a", "submain": "#5b3a8c",
+    "trunk": "#0b6e4f",
 }
 
 
@@ -62,8 +63,11 @@ def plan_map(layers, *, ax=None, title=None):
         handles.append(Patch(facecolor=s["exclusion"], label="exclusion (dashed: setback)"))
     for name, color, lw, label in (("laterals", s["lateral"], 0.8, "lateral"),
                                    ("connectors", s["connector"], 0.8, "connector (solid pipe)"),
-                                   ("unconnected", s["unconnected"], 1.0, "needs sub-main"),
-                                   ("mains", s["main"], 2.2, "collector main")):
+                                   ("unconnected", s["unconnected"], 1.0,
+                                    "unconnected (see reason)"),
+                                   ("submains", s["submain"], 1.4, "sub-main (solid pipe)"),
+                                   ("mains", s["main"], 2.2, "collector main"),
+                                   ("trunk", s["trunk"], 3.0, "trunk main to the outlet")):
         g = layers.get(name)
         if g is not None and len(g):
             g.plot(ax=ax, color=color, linewidth=lw)
@@ -81,6 +85,11 @@ def plan_map(layers, *, ax=None, title=None):
     ax.set_aspect("equal")
     ax.set_axis_off()
     x0, y0, x1, y1 = fld.total_bounds
+    for name in ("outlets", "trunk"):      # the outlet may lie beyond the fields
+        g = layers.get(name)
+        if g is not None and len(g):
+            b = g.total_bounds
+            x0, y0, x1, y1 = min(x0, b[0]), min(y0, b[1]), max(x1, b[2]), max(y1, b[3])
     span = max(x1 - x0, y1 - y0)
     pad = 0.06 * span
     ax.set_xlim(x0 - pad, x1 + pad)
