@@ -252,8 +252,8 @@ def design(project, *, progress=None):
 
     # pipes
     say("pipes")
-    from .pipe_design import PipeOptions
-    from .pipes_plan import PipesInputs, pipes_from_layers
+    from .network.design import PipeOptions
+    from .network.plan import PipesInputs, pipes_from_layers
 
     pp = p.pipes
     coef = pp.get("coefficient", c.get("recharge"))

@@ -2,13 +2,15 @@
 
 Inside drainplan everything is SI with the day as time unit: metres, metres per
 day, days. Text such as ``"3/8 in/d"``, ``"0.6 m/d"``, ``"90 cm"`` or ``"3 ft"`` is
-parsed once here with pint, checked for its dimension and converted; a bare
-number means the SI unit of the quantity (m, m/d, d) unless the caller names
-another default.
+parsed once here by a strict grammar (a number, then a unit; nothing is ever
+evaluated), checked for its dimension and converted: common units from a table,
+other unit words by pint, which is loaded only then. A bare number means the SI
+unit of the quantity (m, m/d, d) unless the caller names another default.
 """
 
 from __future__ import annotations
 
+import re
 from functools import lru_cache
 
 from .errors import InputError
@@ -94,6 +96,93 @@ def _registry():
     return ureg
 
 
+# ---------------------------------------------------------------------------
+# Strict grammar: a number (decimal, exponent or a simple fraction such as 3/8)
+# optionally followed by a unit made of unit words, each with an optional small
+# power of one digit (m2, m**2, m^2, m²), joined by '/', '*', '·' or
+# a space. Nothing is ever evaluated: "9**9**9 m/d" does not match and is
+# refused at once. Common units are converted from the table below without
+# loading pint; pint reads only the unit words of a text that passed the
+# grammar.
+# ---------------------------------------------------------------------------
+_NUMBER = r"[+-]?(?:\d+/\d+|(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)"
+_WORD = r"(?:%|[^\W\d]+)"
+_POWER = r"(?:(?:\*\*|\^)?-?[1-9]|[²³])"
+_FACTOR = _WORD + _POWER + "?"
+_UNIT = _FACTOR + r"(?:(?:\s*[/*·]\s*|\s+)" + _FACTOR + ")*"
+_QUANTITY_RE = re.compile(rf"\s*(?P<number>{_NUMBER})?\s*(?P<unit>{_UNIT})?\s*")
+#: Longest text read as a quantity (a longer one is refused before matching).
+_MAX_CHARS = 64
+
+# Common units as factors to drainplan's SI-with-days units. Each is checked
+# against pint's definition in tests/test_units.py.
+_LENGTH_UNITS = {
+    "m": 1.0, "metre": 1.0, "metres": 1.0, "meter": 1.0, "meters": 1.0,
+    "cm": 0.01, "centimetre": 0.01, "centimetres": 0.01, "centimeter": 0.01,
+    "centimeters": 0.01, "mm": 0.001, "millimetre": 0.001, "millimetres": 0.001,
+    "millimeter": 0.001, "millimeters": 0.001, "km": 1000.0,
+    "ft": 0.3048, "foot": 0.3048, "feet": 0.3048,
+    "in": 0.0254, "inch": 0.0254, "inches": 0.0254,
+    "yd": 0.9144, "yard": 0.9144, "yards": 0.9144,
+}
+_TIME_UNITS = {
+    "d": 1.0, "day": 1.0, "days": 1.0,
+    "h": 1.0 / 24.0, "hr": 1.0 / 24.0, "hour": 1.0 / 24.0, "hours": 1.0 / 24.0,
+    "min": 1.0 / 1440.0, "minute": 1.0 / 1440.0, "minutes": 1.0 / 1440.0,
+    "s": 1.0 / 86400.0, "second": 1.0 / 86400.0, "seconds": 1.0 / 86400.0,
+    "week": 7.0, "weeks": 7.0,
+}
+#: pint's acre (the US survey acre, 4046.8726 m2); kept so that a value reads the
+#: same with and without pint.
+_PINT_ACRE = 4046.872609874252
+_AREA_UNITS = {"ha": 1e4, "hectare": 1e4, "hectares": 1e4,
+               "acre": _PINT_ACRE, "acres": _PINT_ACRE}
+for _name in ("m", "cm", "mm", "km", "ft", "in", "yd"):
+    for _sq in ("2", "**2", "^2", "²"):
+        _AREA_UNITS[_name + _sq] = _LENGTH_UNITS[_name] ** 2
+_FAST_UNITS = {
+    "length": _LENGTH_UNITS,
+    "time": _TIME_UNITS,
+    "area": _AREA_UNITS,
+    "fraction": {"%": 0.01, "percent": 0.01},
+    "rate": {f"{a}/{b}": fa / fb for a, fa in _LENGTH_UNITS.items()
+             for b, fb in _TIME_UNITS.items()},
+}
+_FAST_KIND = {u: k for k, table in _FAST_UNITS.items() for u in table}
+
+
+def _normalise_unit(unit):
+    """'mm / d' -> 'mm/d', 'm^2' -> 'm**2', 'kg·m' -> 'kg*m'."""
+    unit = re.sub(r"\s*([/*·])\s*", r"\1", unit.strip())
+    return re.sub(r"\s+", " ", unit.replace("·", "*"))
+
+
+def _split_quantity(s, name, example):
+    """(number, unit or None) of a text that follows the strict grammar, or InputError."""
+    if len(s) > _MAX_CHARS:
+        raise InputError(f"{name}: cannot read a {len(s)}-character text as a quantity; "
+                         f"expected {example}", param=name)
+    m = _QUANTITY_RE.fullmatch(s)
+    if m is None or not s.strip():
+        raise InputError(f"{name}: cannot read {s!r}; expected a number and a unit, such as "
+                         f"{example}", param=name)
+    number, unit = m.group("number"), m.group("unit")
+    if number is None:
+        if _normalise_unit(unit) in _FAST_KIND:
+            raise InputError(f"{name}: {s!r} has a unit but no number; expected {example}",
+                             param=name)
+        raise InputError(f"{name}: cannot read {s!r}; expected a number and a unit, such as "
+                         f"{example}", param=name)
+    if "/" in number:
+        num, den = number.split("/")
+        if float(den) == 0:
+            raise InputError(f"{name}: {s!r} divides by zero; expected {example}", param=name)
+        value = float(num) / float(den)
+    else:
+        value = float(number)
+    return value, (_normalise_unit(unit) if unit else None)
+
+
 def parse_quantity(text, kind, *, name="value", default_unit=None):
     """Parse a number or a quantity with units into the SI value of ``kind``.
 
@@ -116,8 +205,16 @@ def parse_quantity(text, kind, *, name="value", default_unit=None):
     Raises
     ------
     drainplan.errors.InputError
-        When the text is not a number or quantity, has the wrong dimension,
-        or is not finite.
+        When the text is not a number optionally followed by a unit (a
+        decimal, an exponent or a simple fraction such as ``3/8``; nothing is
+        evaluated), is a unit without a number, has the wrong dimension, or is
+        not finite. The message is one line and names the input.
+
+    Notes
+    -----
+    Common units (m, cm, mm, km, ft, in, yd; d, h, min, s, week; their
+    quotients; ha, acre, squared lengths; %) are converted from a table
+    without loading pint; other unit words are read by pint.
 
     Examples
     --------
@@ -140,27 +237,41 @@ def parse_quantity(text, kind, *, name="value", default_unit=None):
             value = float(s)
             unit = default_unit
         except ValueError:
-            value = None
-    if value is not None:
-        if value != value or value in (float("inf"), float("-inf")):
-            raise InputError(f"{name}: expected a finite number, got {text!r}", param=name)
-        if unit is None:
-            return value
-        return convert(value, unit, si or "dimensionless")
-    ureg = _registry()
-    try:
-        q = ureg.Quantity(s)
-    except Exception:
-        raise InputError(f"{name}: cannot read {text!r}; expected {example}", param=name) from None
-    if not hasattr(q, "dimensionality"):
-        raise InputError(f"{name}: cannot read {text!r}; expected {example}", param=name)
-    want = ureg.Quantity(1, si or "dimensionless").dimensionality
-    if q.dimensionality != want:
-        raise InputError(f"{name}: {text!r} is not a {kind}; expected {example}", param=name)
-    value = float(q.to(si or "dimensionless").magnitude)
+            value, unit = _split_quantity(s, name, example)
+            if unit is None:
+                unit = default_unit
+            elif unit not in _FAST_KIND:
+                value = _pint_value(value, unit, kind, text, name, example)
+                unit = None
+            elif _FAST_KIND[unit] != kind:
+                raise InputError(f"{name}: {text!r} is not a {kind}; expected {example}",
+                                 param=name)
+            else:
+                value = value * _FAST_UNITS[kind][unit]
+                unit = None
+    if value != value or value in (float("inf"), float("-inf")):
+        raise InputError(f"{name}: expected a finite number, got {text!r}", param=name)
+    if unit is None:
+        return value
+    value = float(convert(value, unit, si or "dimensionless"))
     if value != value or abs(value) == float("inf"):
         raise InputError(f"{name}: expected a finite number, got {text!r}", param=name)
     return value
+
+
+def _pint_value(value, unit, kind, text, name, example):
+    """Convert with pint a unit the table does not hold (the text passed the grammar)."""
+    dim, si, _ = KINDS[kind]
+    ureg = _registry()
+    try:
+        units = ureg.parse_units(unit)
+    except Exception:
+        raise InputError(f"{name}: cannot read {text!r}: unknown unit {unit!r}; expected "
+                         f"{example}", param=name) from None
+    want = ureg.Quantity(1, si or "dimensionless").dimensionality
+    if units.dimensionality != want:
+        raise InputError(f"{name}: {text!r} is not a {kind}; expected {example}", param=name)
+    return float(ureg.Quantity(value, units).to(si or "dimensionless").magnitude)
 
 
 def convert(value, from_unit, to_unit):
@@ -173,5 +284,9 @@ def convert(value, from_unit, to_unit):
     """
     if from_unit == to_unit:
         return value
+    a, b = _normalise_unit(from_unit), _normalise_unit(to_unit)
+    kind = _FAST_KIND.get(a)
+    if kind is not None and _FAST_KIND.get(b) == kind:
+        return value * (_FAST_UNITS[kind][a] / _FAST_UNITS[kind][b])
     ureg = _registry()
     return ureg.Quantity(value, from_unit).to(to_unit).magnitude

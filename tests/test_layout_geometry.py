@@ -1,4 +1,10 @@
-"""Lateral and main layout on canonical field shapes (metres, projected plane)."""
+"""Lateral and main layout on canonical field shapes (metres, projected plane).
+
+The property tests run 60 examples each; set DRAINPLAN_PROPERTY_EXAMPLES (e.g. 2000)
+to run the larger profile on demand, and vary ``--hypothesis-seed``.
+"""
+
+import os
 
 import numpy as np
 import pytest
@@ -159,7 +165,10 @@ def star_polygons(draw):
     return poly
 
 
-@settings(max_examples=60, deadline=None)
+PROPERTY_EXAMPLES = int(os.environ.get("DRAINPLAN_PROPERTY_EXAMPLES", "60"))
+
+
+@settings(max_examples=PROPERTY_EXAMPLES, deadline=None)
 @given(poly=star_polygons(), bearing=st.floats(0, 179.9), spacing=st.floats(8, 40),
        setback=st.floats(0, 12), well=st.tuples(st.floats(-0.3, 0.3), st.floats(-0.3, 0.3)),
        well_setback=st.floats(5, 40))
@@ -172,14 +181,19 @@ def test_layout_properties(poly, bearing, spacing, setback, well, well_setback):
                             exclusions=[w], exclusion_setbacks=[well_setback])
     except InputError:
         assume(False)
+    _check_layout(poly, lay, bearing, spacing, setback, w, well_setback)
+
+
+def _check_layout(poly, lay, bearing, spacing, setback=0.0, w=None, well_setback=0.0):
     inset = shapely.buffer(poly, -setback, join_style="mitre") if setback else poly
     g = lay.laterals
     if g.size == 0:
         return
     # inside the field less its setback, outside the exclusion's setback
     assert np.all(shapely.covered_by(g, shapely.buffer(inset, 1e-6)))
-    assert np.all(shapely.length(shapely.intersection(g, w.buffer(well_setback - 1e-6)))
-                  < 1e-6)
+    if w is not None:
+        assert np.all(shapely.length(shapely.intersection(g, w.buffer(well_setback - 1e-6)))
+                      < 1e-6)
     # at the requested bearing
     xy = shapely.get_coordinates(g).reshape(-1, 2, 2)
     d = xy[:, 1] - xy[:, 0]
@@ -200,6 +214,61 @@ def test_layout_properties(poly, bearing, spacing, setback, well, well_setback):
     # pieces closer than the layout's 1 mm contact tolerance count as joined
     touching = shapely.union_all(parts[shapely.distance(parts, main) < 2e-3])
     assert np.all(shapely.distance(g, touching) < 2e-3)
+
+
+# Fields whose corner is cut by a short edge (1-10 m), as digitised boundaries often
+# are; the main along such an edge crosses no scan line (this crashed the layout).
+CUT_CORNER = [
+    # UTM 17N coordinates, spacing 8 m, bearing 99 degrees
+    ("POLYGON ((500081.0 5000126.2, 499953.2 5000102.3, 499874.5 5000082.1, "
+     "499872.0 5000078.1, 500106.3 4999894.2, 500129.2 4999923.8, 500144.0 4999958.1, "
+     "500081.0 5000126.2))", 8.0, 99.0),
+    ("POLYGON ((0 0, 300 0, 300 195, 296 200, 0 200, 0 0))", 12.0, 135.0),
+    ("POLYGON ((0 2, 2 0, 250 0, 250 180, 0 180, 0 2))", 20.0, 45.0),
+]
+
+
+@pytest.mark.parametrize("wkt,spacing,bearing", CUT_CORNER)
+@pytest.mark.parametrize("side", ["auto", "N", "E", "S", "W"])
+def test_cut_corner_regression(wkt, spacing, bearing, side):
+    poly = shapely.from_wkt(wkt)
+    lay = layout_fields([poly], LayoutOptions(spacing=spacing, direction=bearing,
+                                              min_length=0.0, main_side=side))
+    assert lay.laterals.size > 0
+    _check_layout(poly, lay, bearing, spacing)
+
+
+@st.composite
+def cut_corner_fields(draw):
+    """A convex quadrilateral-ish field (rotated rectangle, sides 150-500 m) with one
+    corner cut by an edge 1-10 m long."""
+    w, h = draw(st.floats(150, 500)), draw(st.floats(150, 500))
+    rot = draw(st.floats(0, 180))
+    k = draw(st.integers(0, 3))
+    cut = draw(st.floats(1, 10))
+    frac = draw(st.floats(0.1, 0.9))
+    pts = [np.array(p, float) for p in [(0, 0), (w, 0), (w, h), (0, h)]]
+    c, prev, nxt = pts[k], pts[k - 1], pts[(k + 1) % 4]
+    a = c + (prev - c) / np.linalg.norm(prev - c) * cut * frac
+    b = c + (nxt - c) / np.linalg.norm(nxt - c) * cut * np.sqrt(1 - frac ** 2)
+    ring = pts[:k] + [a, b] + pts[k + 1:]
+    poly = shapely.affinity.rotate(shapely.Polygon(ring), rot, origin=(0, 0))
+    assume(poly.is_valid)
+    return poly
+
+
+@settings(max_examples=PROPERTY_EXAMPLES, deadline=None)
+@given(poly=cut_corner_fields(), bearing=st.one_of(st.just("auto"), st.floats(0, 179.9)),
+       spacing=st.floats(8, 25))
+def test_cut_corner_properties(poly, bearing, spacing):
+    try:
+        lay = layout_fields([poly], LayoutOptions(spacing=spacing, direction=bearing,
+                                                  min_length=0.0))
+    except InputError:
+        assume(False)
+    if bearing == "auto":
+        bearing = float(lay.bearing[0])
+    _check_layout(poly, lay, bearing, spacing)
 
 
 def test_herringbone():

@@ -6,7 +6,7 @@ import shapely
 from numpy.testing import assert_allclose
 
 from drainplan.errors import DrainplanError
-from drainplan.pipe_design import LateralRun, PipeOptions, design_pipes
+from drainplan.network.design import LateralRun, PipeOptions, design_pipes
 
 SPACING = 20.0
 

@@ -6,7 +6,7 @@ from hypothesis import given, settings, strategies as st
 from numpy.testing import assert_allclose
 
 from drainplan.errors import InputError
-from drainplan.pipes import (design_flow, manning_diameter, manning_full_capacity, manning_n,
+from drainplan.network.hydraulics import (design_flow, manning_diameter, manning_full_capacity, manning_n,
                              pipe_series, power_law_capacity, select_size)
 from drainplan.units import convert
 

@@ -3,10 +3,17 @@
 This package is the only importer of click. Commands parse their options
 (units through :mod:`drainplan.units`), call one library function and print;
 heavy libraries are imported inside the commands that need them.
+
+Commands are registered in :data:`COMMANDS` and their modules are imported only
+when the command runs (or its own help is asked), so ``drainplan --help`` loads
+neither numpy nor the design core. :func:`main` limits the BLAS/OpenMP thread
+pools of the process to one thread unless the user has set them.
 """
 
 from __future__ import annotations
 
+import importlib
+import os
 import signal
 import sys
 import threading
@@ -30,7 +37,9 @@ def _option_names(group, command_name=None):
     names = set()
     commands = ([group.commands[command_name]] if command_name in group.commands
                 else group.commands.values())
-    for command in commands:
+    for command in commands:           # the commands loaded so far
+        if isinstance(command, click.Group):          # subcommands (drainplan soil ...)
+            names |= _option_names(command)
         for p in command.params:
             names.update(o for o in getattr(p, "opts", []) if o.startswith("--"))
     return names
@@ -44,12 +53,89 @@ def _on_sigterm(signum, frame):
     raise _Terminated()
 
 
+#: Commands loaded on demand: name -> (module in drainplan.cli, command object,
+#: short help shown by ``drainplan --help``; must equal the command's own
+#: ``short_help``, which tests/test_imports.py checks).
+COMMANDS = {
+    "spacing": ("spacing", "spacing",
+                "Drain spacing by Hooghoudt, Ernst, Kirkham or Glover-Dumm."),
+    "layout": ("layout", "layout", "Lay out laterals and mains over field boundaries."),
+    "pipes": ("pipes", "pipes", "Size and grade the pipes of a layout."),
+    "init": ("design", "init", "Write a commented starter project file."),
+    "design": ("design", "design", "Run the whole design from a project file."),
+    "check": ("check", "check", "Check a contractor's proposal against the project's criteria."),
+    "soil": ("soil", "soil",
+             "Soil inputs: auger-hole tests, texture estimates, drainable porosity."),
+}
+
+#: Environment variables that size the thread pools of BLAS and OpenMP libraries.
+THREAD_VARIABLES = ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS",
+                    "BLIS_NUM_THREADS", "VECLIB_MAXIMUM_THREADS", "NUMEXPR_NUM_THREADS")
+
+
+def limit_threads(environ=None):
+    """Run BLAS and OpenMP on one thread in this process, unless the user chose.
+
+    drainplan's work is vectorised numpy on small matrices; a pool of BLAS
+    threads only adds start-up and contention (the first scipy
+    ``LinearNDInterpolator`` call took seconds of CPU with the default pool,
+    milliseconds with one thread). If any of :data:`THREAD_VARIABLES` is set,
+    nothing is changed. The variables act only if numpy is not loaded yet;
+    otherwise threadpoolctl, if installed, limits the loaded pools.
+
+    Returns
+    -------
+    bool
+        True if the limit was applied.
+    """
+    environ = os.environ if environ is None else environ
+    if any(v in environ for v in THREAD_VARIABLES):
+        return False
+    for v in THREAD_VARIABLES:
+        environ[v] = "1"
+    if "numpy" in sys.modules:
+        try:
+            from threadpoolctl import threadpool_limits
+        except ImportError:
+            pass
+        else:
+            threadpool_limits(1)
+    return True
+
+
 class DrainplanGroup(click.Group):
     """Click group that turns every error into one line on stderr.
 
     Exit codes: 0 success, 1 a domain failure (no solution) or an interruption,
-    2 a bad option, input value or input geometry.
+    2 a bad option, input value or input geometry. Commands of :data:`COMMANDS`
+    are imported on first use.
     """
+
+    def list_commands(self, ctx):
+        return sorted(set(self.commands) | set(COMMANDS))
+
+    def get_command(self, ctx, cmd_name):
+        if cmd_name not in self.commands and cmd_name in COMMANDS:
+            module, attr, _ = COMMANDS[cmd_name]
+            mod = importlib.import_module(f"{__name__}.{module}")
+            self.add_command(getattr(mod, attr), cmd_name)
+        return self.commands.get(cmd_name)
+
+    def format_commands(self, ctx, formatter):
+        """The command list, from :data:`COMMANDS` without importing the commands."""
+        rows = []
+        for name in self.list_commands(ctx):
+            if name in self.commands:
+                cmd = self.commands[name]
+                if cmd.hidden:
+                    continue
+                text = cmd.get_short_help_str(formatter.width - 6 - len(name))
+            else:
+                text = COMMANDS[name][2]
+            rows.append((name, text))
+        if rows:
+            with formatter.section("Commands"):
+                formatter.write_dl(rows)
 
     def main(self, args=None, prog_name=None, complete_var=None, standalone_mode=True,
              **extra):
@@ -123,19 +209,7 @@ def cli(ctx, verbose, quiet):
     ctx.obj = {"verbose": verbose, "quiet": quiet}
 
 
-def _register():
-    from .design import design, init
-    from .layout import layout
-    from .pipes import pipes
-    from .spacing import spacing
-
-    for command in (spacing, layout, pipes, init, design):
-        cli.add_command(command)
-
-
-_register()
-
-
 def main(argv=None):
-    """Console-script entry point."""
+    """Console-script entry point (one BLAS thread unless the user set one)."""
+    limit_threads()
     return cli.main(args=argv, prog_name="drainplan")

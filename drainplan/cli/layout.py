@@ -50,7 +50,8 @@ def _parse_outlet(value):
 
 @click.command(short_help="Lay out laterals and mains over field boundaries.")
 @click.argument("fields", type=click.Path(dir_okay=False))
-@click.option("--spacing", type=checked("length", "spacing"), required=True, help="Lateral spacing, e.g. '18 m'.")
+@click.option("--spacing", type=checked("length",
+              "spacing"), required=True, help="Lateral spacing, e.g. '18 m'.")
 @click.option("--direction", default="auto", show_default=True,
               help="Bearing of the laterals in degrees clockwise from north, or 'auto' "
                    "(long axis of each field).")
@@ -72,7 +73,8 @@ def _parse_outlet(value):
 @click.option("--exclude-setback", type=checked("length", "exclusion_setback"),
               default="15 m", show_default=True,
               help="Setback around exclusions without a 'setback_m' attribute.")
-@click.option("--min-length", type=checked("length", "min_length"), default="10 m", show_default=True,
+@click.option("--min-length", type=checked("length",
+              "min_length"), default="10 m", show_default=True,
               help="Drop lateral pieces shorter than this (they are counted).")
 @click.option("--offset", type=checked("length", "offset"),
               help="Distance of the first lateral from the edge (default: balanced strips).")
@@ -83,7 +85,8 @@ def _parse_outlet(value):
               show_default=True, help="Parallel laterals on an edge main, or a herringbone: "
                                       "a main through the field along --direction with "
                                       "laterals joining it from both sides.")
-@click.option("--herringbone-angle", type=Number("herringbone_angle"), default=45.0, show_default=True,
+@click.option("--herringbone-angle", type=Number("herringbone_angle"),
+              default=45.0, show_default=True,
               help="Angle between laterals and main in the herringbone, degrees (15-75).")
 @click.option("--main", "main_path", type=click.Path(dir_okay=False),
               help="A line layer drawn by the user to use as the main.")

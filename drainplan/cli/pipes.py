@@ -38,9 +38,11 @@ from .options import LENGTH, Number, checked, json_option, units_option
               help="Manning full flow, or the drain-pipe power laws of metric practice.")
 @click.option("--capacity-factor", type=Number("capacity_factor"), default=0.75, show_default=True,
               help="Share of full capacity used (sediment allowance).")
-@click.option("--drain-depth", type=checked("length", "drain_depth"), default="1.0 m", show_default=True,
+@click.option("--drain-depth", type=checked("length",
+              "drain_depth"), default="1.0 m", show_default=True,
               help="Design depth of the laterals.")
-@click.option("--main-depth", type=checked("length", "main_depth"), help="Design depth of the main (default: drain "
+@click.option("--main-depth", type=checked("length",
+              "main_depth"), help="Design depth of the main (default: drain "
                                                 "depth + 0.3 m).")
 @click.option("--min-grade", type=checked("fraction", "min_grade", "percent"),
               default="0.1 %", show_default=True,
@@ -48,9 +50,11 @@ from .options import LENGTH, Number, checked, json_option, units_option
 @click.option("--max-grade", type=checked("fraction", "max_grade", "percent"),
               default="5 %", show_default=True,
               help="Maximum grade: '5 %' or a bare number in percent.")
-@click.option("--min-cover", type=checked("length", "min_cover"), default="0.6 m", show_default=True,
+@click.option("--min-cover", type=checked("length",
+              "min_cover"), default="0.6 m", show_default=True,
               help="Minimum cover over the pipe.")
-@click.option("--max-depth", type=checked("length", "max_depth"), default="2.0 m", show_default=True,
+@click.option("--max-depth", type=checked("length",
+              "max_depth"), default="2.0 m", show_default=True,
               help="Maximum trench depth.")
 @click.option("--min-velocity", type=Number("min_velocity"), default=0.15, show_default=True,
               help="Minimum full-flow velocity, m/s (0.43 where fine sand or silt can "
@@ -59,7 +63,8 @@ from .options import LENGTH, Number, checked, json_option, units_option
               help="Maximum full-flow velocity, m/s (1.07 sand ... 2.13 clay).")
 @click.option("--ditch-water-level", type=checked("length", "ditch_water_level"),
               help="Normal water level in the receiving ditch (elevation, same datum).")
-@click.option("--outfall-margin", type=checked("length", "outfall_margin"), default="0.10 m", show_default=True,
+@click.option("--outfall-margin", type=checked("length",
+              "outfall_margin"), default="0.10 m", show_default=True,
               help="Free outfall: outlet invert above the ditch water level.")
 @click.option("--assumed-grade", type=checked("fraction", "assumed_grade", "percent"),
               default="0.1 %", show_default=True,
@@ -86,8 +91,8 @@ def pipes(layout_path, coefficient, survey_path, survey_crs, survey_z_unit, dem_
         drainplan pipes layout.gpkg --coefficient "10 mm/d" --survey
         demo_fields/survey.csv --survey-crs EPSG:4326 -o schedule.csv
     """
-    from ..pipe_design import PipeOptions
-    from ..pipes_plan import PipesInputs, plan_pipes
+    from ..network.design import PipeOptions
+    from ..network.plan import PipesInputs, plan_pipes
 
     if not Path(layout_path).exists():
         raise InputError(f"layout file not found: {layout_path}", param="layout")
@@ -125,7 +130,7 @@ def write_pipes(plan, output, *, gpkg_path=None, plot_path=None, overwrite=False
     """Write the schedule CSV and optionally the GeoPackage and the profile PNG,
     committed together (all or none)."""
     from ..gisio import layers_writer, write_outputs
-    from ..pipes_plan import schedule_csv
+    from ..network.plan import schedule_csv
 
     text = schedule_csv(plan.design)
     jobs = [(output, lambda tmp: Path(tmp).write_text(text, encoding="utf-8"), "output")]

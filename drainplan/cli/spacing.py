@@ -13,6 +13,8 @@ from ..spacing import METHODS, drain_spacing
 from ..spacing.drain_radius import drain_radius_table, effective_radius
 from ..units import display_unit, parse_quantity, show, to_display
 from .options import FRACTION, LENGTH, RATE, TIME, json_option, units_option
+from .uncertainty_options import (run_uncertainty, uncertainty_json, uncertainty_options,
+                                  uncertainty_text)
 
 
 class DrainRadius(click.ParamType):
@@ -98,11 +100,12 @@ def _parse_sweep(text):
 @click.option("--overwrite", is_flag=True, help="Replace an existing --plot file.")
 @units_option
 @json_option
+@uncertainty_options
 def spacing(method, k, k_above, k_below, interface_depth, k_vertical, geometry_factor,
             drain_depth, barrier_depth, drain_radius, recharge, water_table_depth,
             initial_depth, final_depth, days, drainable_porosity, initial_shape, flow_depth,
             equivalent_depth_method, sweep_k, check_spacing, plot_path, overwrite, units,
-            as_json):
+            as_json, uncertainty):
     """Drain spacing for one site.
 
     Steady methods (hooghoudt, ernst, kirkham) need --recharge and
@@ -114,6 +117,9 @@ def spacing(method, k, k_above, k_below, interface_depth, k_vertical, geometry_f
         drainplan spacing --method hooghoudt --k 0.5 --drain-depth 1.2
         --barrier-depth 4 --drain-radius "5 cm" --recharge "10 mm/d"
         --water-table-depth 0.6
+
+    With --k-cv (K lognormal, the given K its median) it also gives the
+    spacing met with --confidence and the probability curve.
     """
     inputs = dict(method=method, drain_depth=drain_depth, barrier_depth=barrier_depth,
                   drain_radius=drain_radius, k=k, k_above=k_above, k_below=k_below,
@@ -124,7 +130,7 @@ def spacing(method, k, k_above, k_below, interface_depth, k_vertical, geometry_f
                   flow_depth=flow_depth, equivalent_depth_method=equivalent_depth_method,
                   geometry_factor=geometry_factor)
     _check_method_options(inputs)
-    sweep = _parse_sweep(sweep_k) if sweep_k else None
+    sweep = _parse_sweep(sweep_k) if sweep_k is not None else None
     if plot_path and sweep is None:
         raise InputError("--plot draws the --sweep-k curve; give --sweep-k too", param="plot")
     result = _solve(inputs)
@@ -140,15 +146,24 @@ def spacing(method, k, k_above, k_below, interface_depth, k_vertical, geometry_f
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", ConvergenceWarning)
             check = run_check(spacing=check_spacing, **inputs)
+    # uncertainty (--k-cv, --confidence, ranges): sampled through the vectorised core
+    unc = run_uncertainty(inputs, uncertainty, check_spacing)
+    if unc is not None and check is not None:
+        check["probability_meets"] = unc.probability_proposed
     if plot_path:
         _write_plot(plot_path, sweep_rows, units, method, overwrite)
     if as_json:
         out = _as_json(inputs, result, sweep_rows)
         if check is not None:
             out["check"] = check
+        if unc is not None:
+            out.update(uncertainty_json(unc, uncertainty["k_cv"]))
         click.echo(json.dumps(out, indent=2))
     else:
-        click.echo(_as_text(inputs, result, sweep_rows, units, check))
+        text = _as_text(inputs, result, sweep_rows, units, check)
+        if unc is not None:
+            text += "\n" + "\n".join(uncertainty_text(unc, units))
+        click.echo(text)
 
 
 def _write_plot(path, rows, units, method, overwrite):
@@ -288,15 +303,17 @@ def _as_text(inputs, r, sweep_rows, units, check=None):
                 f"{float(to_display(L, 'spacing', units)):.1f}"
             lines.append(f"  {ks:>14.3f} {ls:>16}")
     if check is not None:
-        verdict = "MEETS the criterion" if check["meets"] else "does NOT meet the criterion"
-        lines += ["Check of the proposed spacing",
-                  f"  {'proposed spacing':<34} {show(check['proposed_spacing_m'], 'spacing', units, 1)}"
-                  f" -> {verdict} (widest that meets it: "
-                  f"{show(check['required_spacing_m'], 'spacing', units, 1)})"]
+        lines += ["Check of the proposed spacing", "  " + check_verdict_text(check, units)]
         if "midway_water_table_depth_m" in check:
-            lines.append(f"  {'midway water-table depth':<34} "
-                         f"{show(check['midway_water_table_depth_m'], 'length', units, 2)} "
-                         "under the design recharge")
+            if check.get("ponding"):
+                lines.append(f"  {'midway water table':<34} at the surface: ponding (the "
+                             "steady formula would put it "
+                             f"{show(check['height_above_surface_m'], 'length', units, 2)} "
+                             "above the ground; the excess ponds or runs off)")
+            else:
+                lines.append(f"  {'midway water-table depth':<34} "
+                             f"{show(check['midway_water_table_depth_m'], 'length', units, 2)} "
+                             "under the design recharge")
             lines.append(f"  {'drainage rate at required depth':<34} "
                          f"{show(check['drainage_rate_m_per_d'], 'recharge', units, 2)}")
         else:
@@ -306,3 +323,15 @@ def _as_text(inputs, r, sweep_rows, units, check=None):
     lines.append("  - Check the design against local codes and have it reviewed by a "
                  "qualified professional before construction.")
     return "\n".join(lines)
+
+
+def check_verdict_text(check, units="metric"):
+    """'spacing 21.3 m, allowed 24.6 m: meets with 13 % to spare' (or 'fails by ...')."""
+    prop = show(check["proposed_spacing_m"], "spacing", units, 1)
+    if check["required_spacing_m"] is None or not np.isfinite(check["required_spacing_m"]):
+        return f"spacing {prop}: no spacing meets the criterion: fails"
+    req = show(check["required_spacing_m"], "spacing", units, 1)
+    m = check.get("margin_pct")
+    if check["meets"]:
+        return f"spacing {prop}, allowed {req}: MEETS the criterion with {m:.0f} % to spare"
+    return f"spacing {prop}, allowed {req}: does NOT meet the criterion ({-m:.0f} % too wide)"

@@ -166,9 +166,11 @@ def _main_chain(poly, u, v, low_side):
     """The stretch of a polygon's outer ring that faces one end of the laterals.
 
     Edges whose outward normal points within 60 degrees of the chosen end
-    (-u for the low side, +u for the high side) face it; the longest run of
-    consecutive facing edges is the edge along which the main runs. Returns a
-    LineString ordered by increasing s, or None.
+    (-u for the low side, +u for the high side) face it; the run of consecutive
+    facing edges that spans the most across the laterals is the edge along which
+    the main runs (within 85 degrees where the squarely facing edges span too
+    little, as at a corner cut by a short edge). Returns a LineString ordered by
+    increasing s, or None.
     """
     parts = shapely.get_parts(poly)
     parts = parts[shapely.get_type_id(parts) == 3]
@@ -180,13 +182,15 @@ def _main_chain(poly, u, v, low_side):
     length = np.hypot(d[:, 0], d[:, 1])
     normal = np.stack([d[:, 1], -d[:, 0]], axis=1)          # outward for CCW
     toward = -u if low_side else u
-    facing = (normal @ toward) > 0.5 * length
-    if not np.any(facing):
-        return None
-    m = facing.size
-    if np.all(facing):
-        runs = [list(range(m))]
-    else:
+    cosine = (normal @ toward) / np.maximum(length, 1e-12)
+    across = np.abs(d @ v)                                   # span across the laterals
+
+    def best_run(facing):
+        if not np.any(facing):
+            return None
+        m = facing.size
+        if np.all(facing):
+            return list(range(m))
         start = int(np.flatnonzero(~facing)[0])              # begin after a gap
         runs, cur = [], []
         for j in range(1, m + 1):
@@ -198,7 +202,17 @@ def _main_chain(poly, u, v, low_side):
                 cur = []
         if cur:
             runs.append(cur)
-    best = max(runs, key=lambda r: length[r].sum())
+        return max(runs, key=lambda r: across[r].sum())
+
+    # edges facing the chosen end squarely (within 60 degrees); where a field's end is
+    # oblique to the laterals that leaves only short pieces (a corner cut by a short
+    # edge), so fall back to every edge that faces the end at all (within 85 degrees)
+    best = best_run(cosine > 0.5)
+    wide = best_run(cosine > 0.087)
+    if best is None or (wide is not None and across[best].sum() < 0.8 * across[wide].sum()):
+        best = wide
+    if best is None:
+        return None
     coords = np.vstack([ring[best], ring[best[-1] + 1]])
     if coords[0] @ v > coords[-1] @ v:
         coords = coords[::-1]
@@ -453,7 +467,8 @@ def _connect(pieces, grid, mains, fields, zones, features, cross_setbacks):
         # several crossings on one line: keep the one nearest the field's lowest t
         order = np.lexsort((mt, g))
         g, mt = g[order], mt[order]
-        firsts = np.r_[True, g[1:] != g[:-1]]
+        # (a main that crosses no scan line, e.g. along a short cut corner, gives none)
+        firsts = np.r_[True, g[1:] != g[:-1]] if g.size else np.zeros(0, bool)
         t_main_line[g[firsts]] = mt[firsts]
     gl = grid.line_base[pieces.field] + pieces.line if pieces.field.size else np.empty(0, int)
     tm = t_main_line[gl] if pieces.field.size else np.empty(0)

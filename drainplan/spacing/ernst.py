@@ -219,6 +219,35 @@ def ernst_geometry_factor(k_ratio, thickness_ratio):
     return scalar_or_array(a)
 
 
+#: Range of Ernst's geometry factor a accepted from a user: 1 for a homogeneous
+#: radial zone, up to about 33 in ILRI Table 8.2 (as recalled); 100 leaves room.
+GEOMETRY_FACTOR_RANGE = (1.0, 100.0)
+
+
+def _check_geometry_factor(a, radial_thickness, wet_perimeter):
+    """Refuse a user geometry factor outside its physical range.
+
+    The radial head loss (q L / (pi K_r)) ln(a D_r / u) is a loss only while
+    a D_r > u; a below 1 has no counterpart in Ernst's cases (a = 1 for a
+    homogeneous radial zone, larger when a more permeable layer lies below).
+    """
+    a = np.asarray(a, float)
+    lo, hi = GEOMETRY_FACTOR_RANGE
+    bad = ~np.isnan(a) & ~((a >= lo) & (a <= hi))
+    if np.any(bad):
+        v = float(a[bad].flat[0])
+        raise InputError(f"geometry factor a = {v:g} is outside {lo:g}-{hi:g}: a is 1 for a "
+                         "homogeneous radial zone and grows to about 33 where a more "
+                         "permeable layer lies below (ILRI Table 8.2)",
+                         param="geometry_factor")
+    with np.errstate(invalid="ignore"):
+        neg = ~np.isnan(a) & (a * radial_thickness <= wet_perimeter)
+    if np.any(neg):
+        raise InputError("geometry factor a times the radial-zone thickness must exceed the "
+                         "wet perimeter pi r0, or the radial head loss would be negative",
+                         param="geometry_factor")
+
+
 def _overlap(a0, a1, b0, b1):
     return np.maximum(0.0, np.minimum(a1, b1) - np.maximum(a0, b0))
 
@@ -411,7 +440,7 @@ def ernst_profile_spacing(*, head, recharge, drain_depth, barrier_depth, k_top, 
         a_user = np.full(h.shape, np.nan)
     else:
         a_user = np.broadcast_to(np.asarray(geometry_factor, float), h.shape)
-        require_positive(a_user, "geometry_factor", "geometry factor", "-")
+        _check_geometry_factor(a_user, np.minimum(radial, 1.0e9), np.pi * r0)
 
     def f(L, h, q, zd, zb, kt, kb, zi, r0, kv, a_user):
         t = ernst_profile_terms(spacing=L, head=h, drain_depth=zd, barrier_depth=zb,
