@@ -65,7 +65,7 @@ BAD = [
     ("velocities crossed", PIPES, ["--min-velocity", "1.2", "--max-velocity", "0.5"],
      {("pipes", "min_velocity"): 1.2, ("pipes", "max_velocity"): 0.5},
      "must be less than"),
-    ("max grade inf", PIPES, ["--max-grade", "inf"], {("pipes", "max_grade"): "inf %"},
+    ("max grade inf", PIPES, ["--max-grade", "inf"], {("pipes", "max_grade"): math.inf},
      "finite"),
     ("max grade above 100 %", PIPES, ["--max-grade", "150 %"],
      {("pipes", "max_grade"): "150 %"}, "maximum grade must be greater than 0 %"),
