@@ -683,3 +683,34 @@ def read_dem(path, work_crs):
             return band, tuple(ds.transform)[:6], nodata
     except rasterio.errors.RasterioIOError as exc:
         raise InputError(f"cannot read DEM {path}: {exc}", param="dem") from None
+
+
+# --- batch work files (drainplan batch): finished partitions of an unfinished run ---
+
+
+def write_batch_part(path, result):
+    """Write one finished batch partition (a dict of arrays) atomically.
+
+    These are drainplan's own work files in the hidden ``.OUT.gpkg.parts`` folder
+    beside the output, read back by :func:`read_batch_part` when a run resumes.
+    """
+    import pickle
+
+    def writer(tmp):
+        with open(tmp, "wb") as fh:
+            pickle.dump(result, fh, protocol=pickle.HIGHEST_PROTOCOL)
+
+    return write_atomic(path, writer, overwrite=True)
+
+
+def read_batch_part(path):
+    """Read a partition written by :func:`write_batch_part` (only drainplan's own
+    work files: they are pickles)."""
+    import pickle
+
+    try:
+        with open(path, "rb") as fh:
+            return pickle.load(fh)
+    except (OSError, EOFError, pickle.UnpicklingError) as exc:
+        raise InputError(f"cannot read the batch work file {path} ({exc}); start again "
+                         "with --overwrite", param="resume") from None

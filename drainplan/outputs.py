@@ -27,8 +27,8 @@ from pathlib import Path
 
 from .errors import InputError
 
-__all__ = ["write_design_outputs", "check_output_folder", "render_figures", "OUTPUT_FILES",
-           "MANIFEST"]
+__all__ = ["write_design_outputs", "write_output_folder", "check_output_folder",
+           "render_figures", "OUTPUT_FILES", "MANIFEST"]
 
 OUTPUT_FILES = ("design_sheet.pdf", "design.gpkg", "pipe_schedule.csv", "summary.json")
 
@@ -209,24 +209,15 @@ def write_design_outputs(result, outdir, *, overwrite=False, progress=None):
     folder holding anything drainplan did not write there (see
     :func:`check_output_folder`). Returns the list of paths written.
     """
-    from .gisio import layers_writer, signals_deferred, temp_prefix
-    from .pipes_plan import schedule_csv
+    from .gisio import layers_writer
+    from .network.plan import schedule_csv
     from .sheet import build_sheet
 
     say = progress or (lambda text: None)
     project = result.project
     inputs = project.input_files() if hasattr(project, "input_files") else ()
-    out = check_output_folder(outdir, overwrite=overwrite, inputs=inputs)
-    real = out.resolve() if out.exists() else Path(os.path.abspath(out))
-    fresh = not real.exists()
-    where = real.parent if fresh else real
-    prefix = temp_prefix(real.name) if fresh else f"{_STAGING}.dp{os.getpid()}."
-    tmp = Path(tempfile.mkdtemp(prefix=prefix, dir=where))
-    names = (*OUTPUT_FILES, "plan.png")
-    try:
-        umask = os.umask(0)
-        os.umask(umask)
-        os.chmod(tmp, 0o777 & ~umask)      # mkdtemp makes it private; a result folder is not
+
+    def write_files(tmp):
         say("figures")
         figs = render_figures(result)
         say("design sheet")
@@ -244,6 +235,43 @@ def write_design_outputs(result, outdir, *, overwrite=False, progress=None):
             json.dumps(_clean(result.summary), indent=2, sort_keys=True) + "\n",
             encoding="utf-8")
         (tmp / "plan.png").write_bytes(figs["plan"])
+
+    return write_output_folder(outdir, write_files, names=(*OUTPUT_FILES, "plan.png"),
+                               overwrite=overwrite, inputs=inputs)
+
+
+def write_output_folder(outdir, write_files, *, names, overwrite=False, inputs=()):
+    """Write a command's output files into a folder, all or none, replacing only
+    drainplan's own files.
+
+    Parameters
+    ----------
+    outdir : str or Path
+    write_files : callable
+        ``write_files(tmp)`` writes every file of ``names`` into the folder ``tmp``.
+    names : sequence of str
+        The files written (recorded with their SHA-256 in the manifest).
+    overwrite : bool
+    inputs : iterable of paths
+        Input files that must not lie in the folder.
+
+    Returns
+    -------
+    list of Path
+    """
+    from .gisio import signals_deferred, temp_prefix
+
+    out = check_output_folder(outdir, overwrite=overwrite, inputs=inputs)
+    real = out.resolve() if out.exists() else Path(os.path.abspath(out))
+    fresh = not real.exists()
+    where = real.parent if fresh else real
+    prefix = temp_prefix(real.name) if fresh else f"{_STAGING}.dp{os.getpid()}."
+    tmp = Path(tempfile.mkdtemp(prefix=prefix, dir=where))
+    try:
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(tmp, 0o777 & ~umask)      # mkdtemp makes it private; a result folder is not
+        write_files(tmp)
         new = {name: _sha256(tmp / name) for name in names}
         if fresh:
             (tmp / MANIFEST).write_text(_manifest_text(new), encoding="utf-8")

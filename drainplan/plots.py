@@ -14,7 +14,8 @@ __all__ = ["plan_map", "save_figure"]
 _STYLE = {
     "field_edge": "#3b3b3b", "field_fill": "#f4f1e8", "lateral": "#2a6fb0",
     "connector": "#8a8a8a", "main": "#1b1b1b", "outlet": "#c0392b",
-    "exclusion": "#b9b9b9", "unconnected": "#d98c1a",
+    "exclusion": "#b9b9b9", "unconnected": "#d98c1a", "submain": "#5b3a8c",
+    "trunk": "#0b6e4f",
 }
 
 
@@ -62,8 +63,11 @@ def plan_map(layers, *, ax=None, title=None):
         handles.append(Patch(facecolor=s["exclusion"], label="exclusion (dashed: setback)"))
     for name, color, lw, label in (("laterals", s["lateral"], 0.8, "lateral"),
                                    ("connectors", s["connector"], 0.8, "connector (solid pipe)"),
-                                   ("unconnected", s["unconnected"], 1.0, "needs sub-main"),
-                                   ("mains", s["main"], 2.2, "collector main")):
+                                   ("unconnected", s["unconnected"], 1.0,
+                                    "unconnected (see reason)"),
+                                   ("submains", s["submain"], 1.4, "sub-main (solid pipe)"),
+                                   ("mains", s["main"], 2.2, "collector main"),
+                                   ("trunk", s["trunk"], 3.0, "trunk main to the outlet")):
         g = layers.get(name)
         if g is not None and len(g):
             g.plot(ax=ax, color=color, linewidth=lw)
@@ -81,6 +85,11 @@ def plan_map(layers, *, ax=None, title=None):
     ax.set_aspect("equal")
     ax.set_axis_off()
     x0, y0, x1, y1 = fld.total_bounds
+    for name in ("outlets", "trunk"):      # the outlet may lie beyond the fields
+        g = layers.get(name)
+        if g is not None and len(g):
+            b = g.total_bounds
+            x0, y0, x1, y1 = min(x0, b[0]), min(y0, b[1]), max(x1, b[2]), max(y1, b[3])
     span = max(x1 - x0, y1 - y0)
     pad = 0.06 * span
     ax.set_xlim(x0 - pad, x1 + pad)
@@ -224,15 +233,24 @@ def key_profiles(design, *, axes=None):
     return axes
 
 
-def spacing_against_k(rows, *, ax=None, units="metric", title=None):
+def spacing_against_k(rows, *, ax=None, units="metric", title=None, k_label=None):
     """Spacing against hydraulic conductivity (log K axis).
 
     Parameters
     ----------
     rows : sequence of (k [m/d], spacing [m])
     units : {"metric", "us"}
+    k_label : str, optional
+        Axis label for K (default "hydraulic conductivity K (unit)"); say here
+        when K above and below the drains are scaled together.
+
+    Notes
+    -----
+    Ticks on the log axis are the 1-2-5 values in plain decimals, minor ticks
+    unlabelled, so labels never run into each other over a short range.
     """
     import matplotlib.pyplot as plt
+    from matplotlib.ticker import FixedLocator, FuncFormatter, LogLocator, NullFormatter
 
     from .units import display_unit, to_display
 
@@ -241,10 +259,24 @@ def spacing_against_k(rows, *, ax=None, units="metric", title=None):
     k = np.array([r[0] for r in rows], float)
     L = np.array([r[1] for r in rows], float)
     ku, lu = display_unit("conductivity", units), display_unit("spacing", units)
-    ax.plot(to_display(k, "conductivity", units), to_display(L, "spacing", units), marker="o",
-            color="#2a6fb0")
+    kd = to_display(k, "conductivity", units)
+    ax.plot(kd, to_display(L, "spacing", units), marker="o", color="#2a6fb0")
     ax.set_xscale("log")
-    ax.set_xlabel(f"hydraulic conductivity K ({ku})")
+    lo, hi = float(np.nanmin(kd)), float(np.nanmax(kd))
+    decades = 10.0 ** np.arange(np.floor(np.log10(lo)) - 1, np.ceil(np.log10(hi)) + 1)
+    subs = (1.0, 2.0, 5.0)
+    for subs in ((1.0, 2.0, 5.0), tuple(range(1, 10))):
+        ticks = [d * m for d in decades for m in subs if lo <= d * m <= hi]
+        if len(ticks) >= 2:
+            break
+    if len(ticks) >= 2:
+        ax.xaxis.set_major_locator(LogLocator(base=10.0, subs=subs))
+    else:
+        ax.xaxis.set_major_locator(FixedLocator([float(f"{lo:.2g}"), float(f"{hi:.2g}")]))
+    ax.xaxis.set_major_formatter(FuncFormatter(lambda v, _: f"{v:.6g}"))
+    ax.xaxis.set_minor_locator(LogLocator(base=10.0, subs=np.arange(2, 10) * 1.0))
+    ax.xaxis.set_minor_formatter(NullFormatter())
+    ax.set_xlabel(k_label or f"hydraulic conductivity K ({ku})")
     ax.set_ylabel(f"drain spacing ({lu})")
     ax.grid(True, which="both", color="#dddddd", linewidth=0.5)
     if title:

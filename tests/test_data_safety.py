@@ -207,7 +207,7 @@ def test_stale_temporary_folders_are_cleared(result, quick_sheet, tmp_path):
 
 @pytest.mark.parametrize("exc", [KeyboardInterrupt, RuntimeError])
 def test_interrupted_writer_leaves_nothing(result, quick_sheet, monkeypatch, tmp_path, exc):
-    import drainplan.pipes_plan as pp
+    import drainplan.network.plan as pp
 
     def boom(design):
         raise exc("stopped while writing")

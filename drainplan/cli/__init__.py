@@ -66,6 +66,7 @@ COMMANDS = {
     "check": ("check", "check", "Check a contractor's proposal against the project's criteria."),
     "soil": ("soil", "soil",
              "Soil inputs: auger-hole tests, texture estimates, drainable porosity."),
+    "batch": ("batch", "batch", "Design many fields at once, each with its own soil."),
 }
 
 #: Environment variables that size the thread pools of BLAS and OpenMP libraries.

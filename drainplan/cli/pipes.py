@@ -69,6 +69,8 @@ from .options import LENGTH, Number, checked, json_option, units_option
 @click.option("--assumed-grade", type=checked("fraction", "assumed_grade", "percent"),
               default="0.1 %", show_default=True,
               help="Grade used without elevations: '0.1 %' or a bare number in percent.")
+@click.option("--envelope", type=click.Choice(["none", "sock", "gravel"]), default="none",
+              show_default=True, help="Envelope around the laterals, for the take-off.")
 @click.option("-o", "--output", type=click.Path(dir_okay=False), required=True,
               help="Pipe schedule CSV to write.")
 @click.option("--gpkg", "gpkg_path", type=click.Path(dir_okay=False),
@@ -81,8 +83,8 @@ from .options import LENGTH, Number, checked, json_option, units_option
 def pipes(layout_path, coefficient, survey_path, survey_crs, survey_z_unit, dem_path,
           material, series, sizes_path, capacity_method, capacity_factor, drain_depth,
           main_depth, min_grade, max_grade, min_cover, max_depth, min_velocity, max_velocity,
-          ditch_water_level, outfall_margin, assumed_grade, output, gpkg_path, plot_path,
-          overwrite, units, as_json):
+          ditch_water_level, outfall_margin, assumed_grade, envelope, output, gpkg_path,
+          plot_path, overwrite, units, as_json):
     """Size every lateral and main reach of the layout in LAYOUT.gpkg (written by
     `drainplan layout`) and check grades, cover and the outlet on real elevations.
 
@@ -114,7 +116,7 @@ def pipes(layout_path, coefficient, survey_path, survey_crs, survey_z_unit, dem_
                        min_cover=min_cover, max_depth=max_depth, min_velocity=min_velocity,
                        max_velocity=max_velocity, ditch_water_level=ditch_water_level,
                        outfall_margin=outfall_margin, assumed_grade=assumed_grade,
-                       sizes_path=sizes_path)
+                       sizes_path=sizes_path, envelope=None if envelope == "none" else envelope)
     plan = plan_pipes(PipesInputs(layout_path=layout_path, options=opts,
                                   survey_path=survey_path, survey_crs=survey_crs,
                                   survey_z_unit=survey_z_unit, dem_path=dem_path))
@@ -173,26 +175,29 @@ def write_profile_png(design, path, *, overwrite=False):
 def pipes_summary(plan):
     d = plan.design
     return {"reaches": d.reaches, "takeoff": d.takeoff, "violations": d.violations,
-            "totals": d.totals, "notes": d.notes}
+            "totals": d.totals, "notes": d.notes, "outlets": d.outlets,
+            "problems": d.problem_summary}
 
 
 def _text(d, output, units="metric"):
-    lines = ["Quantity take-off"]
+    lines = ["Quantity take-off (whole job; per field in --json)"]
     for r in d.takeoff:
+        if r["field_id"] != "all":
+            continue
         qty = (f"{show(r['length_m'], 'length', units, 1):>12}" if r["length_m"]
                else f"{r['count']:>8d} pcs")
-        lines.append(f"  {r['kind']:<8} {r['material']:<22} {r['size']:<36} {qty}")
+        kind = r["kind"] + (" (perforated)" if r["perforated"] else "")
+        lines.append(f"  {kind:<22} {r['material']:<22} {r['size']:<30} {qty}")
     t = d.totals
     flow = show(t["outlet_flow_l_s"], "flow", units, 1 if units == "metric" else 2)
-    lines.append(f"drained area {show(t['drained_area_ha'], 'area', units, 2)}, outlet flow "
+    where = "at the outlet" if t.get("outlets", 1) == 1 else \
+        f"at {t['outlets']} separate outlets together"
+    lines.append(f"drained area {show(t['drained_area_ha'], 'area', units, 2)}, flow {where} "
                  f"{flow}; schedule written to {output} (SI units)")
     if d.violations:
-        lines.append(f"{len(d.violations)} problem(s):")
-        for v in d.violations[:30]:
-            where = f" at {v['chainage_m']:.0f} m" if v.get("chainage_m") else ""
-            lines.append(f"  - {v['reach_id']}{where}: {v['problem']} -> {v['fix']}")
-        if len(d.violations) > 30:
-            lines.append(f"  ... and {len(d.violations) - 30} more in the schedule")
+        lines.append(f"{len(d.violations)} problem(s), by kind (each place is in the "
+                     "schedule's warnings column and the GeoPackage):")
+        lines += [f"  - {g}" for g in d.problem_summary]
     for n in d.notes:
         lines.append(f"note: {n}")
     return "\n".join(lines)

@@ -67,11 +67,13 @@ def _parse_sweep(text):
 @click.option("--k-vertical", type=RATE, help="Vertical conductivity of the top layer (ernst).")
 @click.option("--geometry-factor", type=float,
               help="Ernst's radial geometry factor a, instead of the table.")
-@click.option("--drain-depth", type=LENGTH, required=True, help="Depth of the drains.")
-@click.option("--barrier-depth", type=LENGTH, required=True,
-              help="Depth of the impermeable barrier.")
-@click.option("--drain-radius", type=DrainRadius(), required=True,
-              help="Effective drain radius, or a pipe type (see --list-radii).")
+@click.option("--drain-depth", type=LENGTH, help="Depth of the drains (required).")
+@click.option("--barrier-depth", type=LENGTH,
+              help="Depth of the impermeable barrier (required).")
+@click.option("--drain-radius", type=DrainRadius(),
+              help="Effective drain radius, or a pipe type (see --list-radii) (required).")
+@click.option("--list-radii", is_flag=True,
+              help="List the pipe types with their effective radius and source, and exit.")
 @click.option("--recharge", type=RATE,
               help="Steady design recharge (drainage coefficient), e.g. '10 mm/d'.")
 @click.option("--water-table-depth", type=LENGTH,
@@ -102,7 +104,7 @@ def _parse_sweep(text):
 @json_option
 @uncertainty_options
 def spacing(method, k, k_above, k_below, interface_depth, k_vertical, geometry_factor,
-            drain_depth, barrier_depth, drain_radius, recharge, water_table_depth,
+            drain_depth, barrier_depth, drain_radius, list_radii, recharge, water_table_depth,
             initial_depth, final_depth, days, drainable_porosity, initial_shape, flow_depth,
             equivalent_depth_method, sweep_k, check_spacing, plot_path, overwrite, units,
             as_json, uncertainty):
@@ -120,7 +122,14 @@ def spacing(method, k, k_above, k_below, interface_depth, k_vertical, geometry_f
 
     With --k-cv (K lognormal, the given K its median) it also gives the
     spacing met with --confidence and the probability curve.
+
+    Pipe types for --drain-radius: drainplan spacing --list-radii
     """
+    if list_radii:
+        click.echo(_radii_listing(units, as_json))
+        return
+    _require_site(drain_depth=drain_depth, barrier_depth=barrier_depth,
+                  drain_radius=drain_radius)
     inputs = dict(method=method, drain_depth=drain_depth, barrier_depth=barrier_depth,
                   drain_radius=drain_radius, k=k, k_above=k_above, k_below=k_below,
                   interface_depth=interface_depth, k_vertical=k_vertical,
@@ -166,6 +175,35 @@ def spacing(method, k, k_above, k_below, interface_depth, k_vertical, geometry_f
         click.echo(text)
 
 
+def _require_site(**values):
+    """The options every spacing needs (optional only with --list-radii)."""
+    ctx = click.get_current_context()
+    for name, value in values.items():
+        if value is None:
+            param = next(p for p in ctx.command.params if p.name == name)
+            raise click.MissingParameter(ctx=ctx, param=param)
+
+
+def _radii_listing(units, as_json):
+    """The effective-radius table: pipe type, radius, description, source, confidence."""
+    rows = drain_radius_table()
+    if as_json:
+        return json.dumps({"drain_radii": [
+            {"name": r["name"], "radius_m": r["radius_m"], "description": r["description"],
+             "source": r["source"], "confidence": r["confidence"]} for r in rows]}, indent=2)
+    digits = 2 if units == "us" else 1
+    ru = display_unit("radius", units)
+    width = max(len(r["name"]) for r in rows)
+    lines = [f"Effective drain radius by pipe type (give the type or a length to "
+             f"--drain-radius)", f"  {'type':<{width}}  {'radius (' + ru + ')':>12}  description"]
+    for r in rows:
+        lines.append(f"  {r['name']:<{width}}  "
+                     f"{float(to_display(r['radius_m'], 'radius', units)):>12.{digits}f}  "
+                     f"{r['description']}")
+        lines.append(f"  {'':<{width}}  {'':>12}  source ({r['confidence']}): {r['source']}")
+    return "\n".join(lines)
+
+
 def _write_plot(path, rows, units, method, overwrite):
     import matplotlib
 
@@ -176,7 +214,9 @@ def _write_plot(path, rows, units, method, overwrite):
     from ..plots import save_figure, spacing_against_k
 
     fig, ax = plt.subplots(figsize=(6, 4))
-    spacing_against_k(rows, ax=ax, units=units, title=f"{_TITLES[method]}: spacing against K")
+    spacing_against_k([(r[0], r[1]) for r in rows], ax=ax, units=units,
+                      title=f"{_TITLES[method]}: spacing against K",
+                      k_label=_sweep_label(rows, units))
     write_atomic(path, lambda tmp: save_figure(fig, tmp), overwrite=overwrite)
     plt.close(fig)
 
@@ -206,7 +246,18 @@ def _sweep(inputs, ks):
         varied["k_below"] = ks
         varied["k_above"] = ks * ratio
     res = _solve(varied)
-    return [(float(kv), float(L)) for kv, L in zip(ks, np.broadcast_to(res.spacing, ks.shape))]
+    ratio = None if inputs["k"] is not None else inputs["k_above"] / inputs["k_below"]
+    return [(float(kv), float(L), ratio)
+            for kv, L in zip(ks, np.broadcast_to(res.spacing, ks.shape))]
+
+
+def _sweep_label(rows, units):
+    """What the swept K is: one K, or K below with K above scaled with it."""
+    ku = display_unit("conductivity", units)
+    ratio = rows[0][2] if rows else None
+    if ratio is None:
+        return f"hydraulic conductivity K ({ku})"
+    return f"K below drains ({ku}); K above = {ratio:.3g} × K below, scaled together"
 
 
 def _num(v):
@@ -228,9 +279,13 @@ def _as_json(inputs, r, sweep_rows):
                    for k, v in inputs.items()},
         "details": {k: _num(v) for k, v in r.extra.items()},
         "notes": list(r.notes),
+        "warnings": list(r.warnings),
     }
     if sweep_rows is not None:
-        out["sweep"] = [{"k_m_per_d": kv, "spacing_m": _num(L)} for kv, L in sweep_rows]
+        out["sweep"] = [
+            {"k_m_per_d": kv, "spacing_m": _num(L)} if ratio is None else
+            {"k_below_m_per_d": kv, "k_above_m_per_d": kv * ratio, "spacing_m": _num(L)}
+            for kv, L, ratio in sweep_rows]
     return out
 
 
@@ -296,8 +351,15 @@ def _as_text(inputs, r, sweep_rows, units, check=None):
     lines += ["Result"] + [f"  {a:<34} {b}" for a, b in (x for x in res if x)]
     if sweep_rows is not None:
         ku, su = display_unit("conductivity", units), display_unit("spacing", units)
-        lines += ["Spacing against K", f"  {'K (' + ku + ')':>14} {'spacing (' + su + ')':>16}"]
-        for kv, L in sweep_rows:
+        ratio = sweep_rows[0][2] if sweep_rows else None
+        if ratio is None:
+            lines += ["Spacing against K",
+                      f"  {'K (' + ku + ')':>14} {'spacing (' + su + ')':>16}"]
+        else:
+            lines += [f"Spacing against K (K above and below scaled together, K above = "
+                      f"{ratio:.3g} × K below)",
+                      f"  {'K below (' + ku + ')':>14} {'spacing (' + su + ')':>16}"]
+        for kv, L, _ in sweep_rows:
             ks = float(to_display(kv, "conductivity", units))
             ls = "no solution" if not np.isfinite(L) else \
                 f"{float(to_display(L, 'spacing', units)):.1f}"
@@ -319,6 +381,8 @@ def _as_text(inputs, r, sweep_rows, units, check=None):
         else:
             lines.append(f"  {'midway depth after the time allowed':<34} "
                          f"{show(check['midway_depth_after_days_m'], 'length', units, 2)}")
+    if r.warnings:
+        lines += ["Warnings"] + [f"  ! {w}" for w in r.warnings]
     lines += ["Notes"] + [f"  - {n}" for n in r.notes]
     lines.append("  - Check the design against local codes and have it reviewed by a "
                  "qualified professional before construction.")

@@ -7,7 +7,8 @@ from .drain_spacing import (METHODS, STEADY_METHODS, SpacingResult, check_spacin
 from .equivalent_depth import (EQUIVALENT_DEPTH_METHODS, equivalent_depth,
                                equivalent_depth_deep_limit, molen_wesseling_f)
 from .ernst import (ERNST_GEOMETRY_TABLE, ernst_geometry_factor, ernst_head,
-                    ernst_profile_spacing, ernst_profile_terms, ernst_spacing)
+                    ernst_layer_caution, ernst_profile_spacing, ernst_profile_terms,
+                    ernst_spacing)
 from .glover_dumm import (FLOW_DEPTHS, INITIAL_SHAPES, glover_dumm_flow_depth,
                           glover_dumm_head, glover_dumm_profile, glover_dumm_spacing,
                           reaction_factor)
@@ -21,7 +22,8 @@ __all__ = [
     "molen_wesseling_f",
     "hooghoudt_spacing", "hooghoudt_head", "hooghoudt_recharge", "hooghoudt_water_table",
     "kirkham_f", "kirkham_head", "kirkham_spacing",
-    "ERNST_GEOMETRY_TABLE", "ernst_geometry_factor", "ernst_head", "ernst_spacing",
+    "ERNST_GEOMETRY_TABLE", "ernst_geometry_factor", "ernst_head", "ernst_layer_caution",
+    "ernst_spacing",
     "ernst_profile_spacing", "ernst_profile_terms",
     "FLOW_DEPTHS", "INITIAL_SHAPES", "glover_dumm_flow_depth", "glover_dumm_head",
     "glover_dumm_profile",

@@ -17,7 +17,7 @@ import numpy as np
 from ..errors import InputError
 from .._validate import refuse_where, require_positive, scalar_or_array
 from .equivalent_depth import EQUIVALENT_DEPTH_METHODS, _equivalent_depth_unchecked
-from .ernst import ernst_profile_spacing, ernst_profile_terms
+from .ernst import ernst_layer_caution, ernst_profile_spacing, ernst_profile_terms
 from .glover_dumm import (FLOW_DEPTHS, INITIAL_SHAPES, glover_dumm_flow_depth,
                           glover_dumm_head, glover_dumm_spacing, reaction_factor)
 from .hooghoudt import hooghoudt_head, hooghoudt_recharge, hooghoudt_spacing
@@ -59,6 +59,8 @@ class SpacingResult:
         Method-specific values (reaction factor, Ernst head losses, ...).
     notes : tuple of str
         Assumptions and choices a reviewer should see.
+    warnings : tuple of str
+        Cautions: the method is used outside the case it was built for.
     """
 
     method: str
@@ -69,6 +71,7 @@ class SpacingResult:
     depth_to_barrier: object
     extra: dict = field(default_factory=dict)
     notes: tuple = ()
+    warnings: tuple = ()
 
 
 def _arr(v):
@@ -266,8 +269,13 @@ def _drain_spacing(method, drain_depth, barrier_depth, drain_radius, k, k_above,
                 notes.append("geometry factor a from the ILRI Table 8.2 values as recalled "
                              "(not verified against the book); give it directly to override")
         notes += _range_notes(L)
+        cautions = ()
+        if method == "ernst":
+            c = ernst_layer_caution(drain_depth=zd, interface_depth=interface_depth,
+                                    k_top=ka, k_bottom=kb)
+            cautions = (c,) if c else ()
         return SpacingResult(method, L, d, None, scalar_or_array(h), scalar_or_array(D),
-                             extra, tuple(notes))
+                             extra, tuple(notes), cautions)
 
     # falling water table
     z0 = _arr(_require(initial_depth, "initial_depth", "initial water-table depth"))
