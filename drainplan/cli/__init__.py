@@ -67,6 +67,8 @@ COMMANDS = {
     "soil": ("soil", "soil",
              "Soil inputs: auger-hole tests, texture estimates, drainable porosity."),
     "batch": ("batch", "batch", "Design many fields at once, each with its own soil."),
+    "simulate": ("simulate", "simulate",
+                 "Simulate the water table between drains over a weather record."),
 }
 
 #: Environment variables that size the thread pools of BLAS and OpenMP libraries.
