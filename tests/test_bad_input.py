@@ -154,6 +154,8 @@ def _toml(data):
             return repr(v)
         if isinstance(v, list):
             return "[" + ", ".join(val(x) for x in v) + "]"
+        if isinstance(v, dict):            # e.g. [[soil.tests]] as inline tables
+            return "{" + ", ".join(f"{k} = {val(x)}" for k, x in v.items()) + "}"
         return json.dumps(v)
     out = []
     for section, keys in data.items():
