@@ -741,6 +741,13 @@ def check_proposal(project, proposal, *, units=None, progress=None):
     if nm == 0:
         notes.append("the proposal draws no main: main sizes not checked")
 
+    stated = nums.get("lateral_spacing")
+    if stated is not None and source == "drawn" and inside.any():
+        med = float(np.nanmedian(geo.local_spacing[inside]))
+        notes.append(f"stated lateral spacing {show(stated, 'spacing', u, 1)}; measured on "
+                     f"the drawn lines: median {show(med, 'spacing', u, 1)} (the drawn "
+                     "lines are checked)")
+
     # --- spacing criteria per lateral and side
     say("spacing criteria")
     crit_list = [c for c in SPACING_CRITERIA if c.applies(p)]
