@@ -263,7 +263,8 @@ def _read_lines(p, *, crs=None, layer=None):
 
     from .gisio import read_layer
 
-    gdf, file_crs = read_layer(p, layer=layer, crs=crs, what="proposal", option="proposal")
+    gdf, file_crs = read_layer(p, layer=layer, crs=crs, what="proposal", option="proposal",
+                               keep_z=True)
     geoms = gdf.geometry.values
     ok = np.array([g is not None and not g.is_empty and g.geom_type in
                    ("LineString", "MultiLineString") for g in geoms], bool)
