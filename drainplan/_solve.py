@@ -103,7 +103,8 @@ def bracketed_root(func, lo, hi, args=(), *, xtol=1e-6, rtol=1e-12, maxiter=100,
     return _in_blocks(_chandrupatla_block, func, lo, hi, args, xtol, rtol, maxiter, what)
 
 
-def _in_blocks(block_solver, func, lo, hi, args, xtol, rtol, maxiter, what):
+def _in_blocks(block_solver, func, lo, hi, args, xtol, rtol, maxiter, what, total=None,
+               stacklevel=3):
     lo, hi, *args = np.broadcast_arrays(np.asarray(lo, float), np.asarray(hi, float),
                                         *[np.asarray(a, float) for a in args])
     shape = lo.shape
@@ -122,9 +123,9 @@ def _in_blocks(block_solver, func, lo, hi, args, xtol, rtol, maxiter, what):
     nbad = int(np.count_nonzero(~converged))
     if nbad:
         warnings.warn(
-            f"no {what} found for {nbad} of {n} case(s) (no sign change in the bracket "
-            f"or no convergence in {maxiter} iterations); their result is NaN",
-            ConvergenceWarning, stacklevel=3)
+            f"no {what} found for {nbad} of {total or n} case(s) (no sign change in the "
+            f"bracket or no convergence in {maxiter} iterations); their result is NaN",
+            ConvergenceWarning, stacklevel=stacklevel)
         root[~converged] = np.nan
     return RootResult(root.reshape(shape), converged.reshape(shape), iterations)
 
@@ -226,10 +227,11 @@ def newton_root(func, x0, lo, hi, args=(), *, fallback=None, xtol=1e-6, rtol=4e-
     -----
     A case stops when its step is below ``xtol + rtol |x|``, or when its steps
     already shrink at the method's order and the error of the new point that
-    this order predicts is below a quarter of the tolerance: ``s^2 / |x|``
-    for Newton and ``|s|^3 / x^2`` for Halley, with s the last step (the
-    constant taken as 1/|x|, i.e. the function varies on the scale of x
-    itself), and the step at most a quarter of the previous one. A case that
+    this order predicts is below a quarter of the tolerance, with the
+    constant of the order taken both from the scale of x (the function
+    varies on the scale of x itself) and from the last two steps s and p:
+    ``max(s^2 / |x|, |s|^3 / p^2)`` for Newton, ``max(|s|^3 / x^2, s^4 / |p|^3)``
+    for Halley; the step must also be at most a quarter of the previous one. A case that
     has not stopped after ``maxiter`` steps (a step that is not finite never
     stops), or whose root is outside [lo, hi], is handed to
     :func:`bracketed_root` (``fallback``), so a case with a root in the
@@ -273,7 +275,7 @@ def newton_root(func, x0, lo, hi, args=(), *, fallback=None, xtol=1e-6, rtol=4e-
     left = np.flatnonzero(~converged)
     if left.size and fallback is not None:
         res = _in_blocks(_chandrupatla_block, fallback, lo[left], hi[left],
-                         [a[left] for a in args], xtol, rtol, 100, what)
+                         [a[left] for a in args], xtol, rtol, 100, what, total=n)
         root[left], converged[left] = res.root, res.converged
         iterations = max(iterations, res.iterations)
     elif left.size:
@@ -312,15 +314,18 @@ def newton_block(func, x, lo, hi, args, *, xtol, rtol, maxiter, prev=None):
             it += 1
             out = func(x, *args)
             f, f1 = out[0], out[1]
+            # predicted error of the new point below tol / 4, by the method's order
+            # with the constant from the scale of x and from the last two steps
             if len(out) > 2:
                 step = f / (f1 - 0.5 * f * out[2] / f1)                # Halley
                 a = np.abs(step)
-                # predicted error of the new point a^3 / x^2 below tol / 4
-                quick = a * a * a <= (0.25 * tol) * (x * x)
+                a3 = a * a * a
+                quick = (a3 <= (0.25 * tol) * (x * x)) & (a3 * a <= (0.25 * tol) * prev ** 3)
             else:
                 step = f / f1                                           # Newton
                 a = np.abs(step)
-                quick = a * a <= (0.25 * tol) * np.abs(x)
+                a2 = a * a
+                quick = (a2 <= (0.25 * tol) * np.abs(x)) & (a2 * a <= (0.25 * tol) * prev ** 2)
             x = x - step
             stop = (a <= tol) | (quick & (a <= 0.25 * prev))
             if stop.any():

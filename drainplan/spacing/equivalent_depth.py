@@ -265,6 +265,7 @@ def _equivalent_depth_unchecked(L, D, r0, method="series"):
 # ---------------------------------------------------------------------------
 _PI = np.pi
 _C1 = tuple(m * c for m, c in enumerate(_C[:4], 1))      # derivative series, 4 terms
+_C2 = tuple(m * m * c for m, c in enumerate(_C[:3], 1))  # second derivative, 3 terms
 _E1 = tuple(m * e for m, e in enumerate(_E[:4], 1))
 #: The series of a case is chosen once, from its estimate; with nine terms it is
 #: exact to rounding while its ratio t stays below this (the estimate is close
@@ -295,23 +296,26 @@ def _w_small(L, inv_d, gamma, terms):
 
 def _w_large(L, two_pi_d, ln_pr, terms):
     """W, W', W'' for x > switch: W = ln(L/(pi r0)) + 4 sum c_m t^m, t = exp(-2x)
-    (W'' keeps the first term of the series only)."""
+    (W'' with three terms of the series)."""
     inv_l = 1.0 / L
     x = two_pi_d * inv_l
     t = np.exp(-2.0 * x)
     if terms > 2:
         w = np.log(L) - ln_pr + 4.0 * _horner(t, _C[:terms])
         xq = (8.0 * x) * _horner(t, _C1)
+        q2 = _horner(t, _C2)
     else:
         w = np.log(L) - ln_pr + 4.0 * t * (1.0 + t)
         xq = (8.0 * x) * t
+        q2 = t
     w1 = (1.0 + xq) * inv_l
-    w2 = (-1.0 - 2.0 * xq) * (inv_l * inv_l)
+    w2 = (-1.0 - 2.0 * xq + 16.0 * x * x * q2) * (inv_l * inv_l)
     return w, w1, w2
 
 
 def _kirkham_e2_small(L, D, r):
-    """2E (the finite-radius part of Kirkham's series) and its slope, x <= switch."""
+    """2E (the finite-radius part of Kirkham's series) and its slope, x <= switch
+    (the slope of the sum over n to first order in p)."""
     theta = _PI * r / L
     y = 0.5 * _PI * r / D
     p = np.exp(np.maximum(-_PI * L / D, -700.0))
@@ -323,26 +327,32 @@ def _kirkham_e2_small(L, D, r):
         prod *= (1.0 - 2.0 * pn * ch + pn * pn) / ((1.0 - pn) * (1.0 - pn))
     e2 = (np.log(2.0 * D / (L * np.sin(theta))) + np.log(np.sinh(y))
           - 0.5 * _PI * r * r / (D * L) + np.log(prod))
-    slope = ((theta / np.tan(theta) - 1.0) / L + 0.5 * _PI * r * r / (D * L * L)
-             + 2.0 * (ch - 1.0) * (_PI / D) * p)
-    return e2, slope
+    g = theta / np.tan(theta) - 1.0
+    inv_l = 1.0 / L
+    slope = (g + 0.5 * _PI * r * r / D * inv_l) * inv_l + 2.0 * (ch - 1.0) * (_PI / D) * p
+    return e2, slope, None
 
 
 def _kirkham_e2_large(L, D, r):
-    """2E and its slope, x > switch (direct series in exp(-2x))."""
+    """2E and its slope, x > switch: sum_k ln(1 + v_k), v_k = 4 sin^2(pi r/L) w/(1 - w)^2,
+    w = exp(-2 k x) (nine terms)."""
     theta = _PI * r / L
-    x = 2.0 * _PI * D / L
+    inv_l = 1.0 / L
+    x = 2.0 * _PI * D * inv_l
     z = np.exp(np.maximum(-2.0 * x, -700.0))
     s2 = np.sin(theta) ** 2
-    prod = np.ones_like(L)
-    zk = np.ones_like(L)
-    for _ in range(9):
-        zk = zk * z
-        prod *= 1.0 + 4.0 * s2 * zk / ((1.0 - zk) * (1.0 - zk))
-    u1 = 4.0 * s2 * z / ((1.0 - z) * (1.0 - z))
-    slope = 4.0 * z * (2.0 * x * s2 - theta * np.sin(2.0 * theta)) / (
-        L * (1.0 - z) * (1.0 - z) * (1.0 + u1))
-    return np.log(prod), slope
+    ds2 = -theta * np.sin(2.0 * theta) * inv_l          # d sin^2(theta) / dL
+    kx = 2.0 * x * inv_l                                 # d ln(w) / dL = k kx
+    e2 = np.zeros_like(L)
+    slope = np.zeros_like(L)
+    w = np.ones_like(L)
+    for k in range(1, 10):
+        w = w * z
+        c = 4.0 * w / ((1.0 - w) * (1.0 - w))
+        v = c * s2
+        e2 += np.log1p(v)
+        slope += c * (ds2 + s2 * (k * kx) * (1.0 + w) / (1.0 - w)) / (1.0 + v)
+    return e2, slope, None
 
 
 def _kirkham_e2(L, D, r):
@@ -406,7 +416,7 @@ def _solve_spacing(n, prepare, bracket, exact, *, method="series", cap=True, kir
     between the ends ``bracket(idx) -> (lo, hi)``. ``kirkham``: W is Kirkham's
     pi F_K (the series W less its finite-radius part 2E), not capped.
     """
-    from .._solve import bracketed_root
+    from .._solve import _chandrupatla_block, _in_blocks
 
     root = np.empty(n)
     rest = []
@@ -423,8 +433,9 @@ def _solve_spacing(n, prepare, bracket, exact, *, method="series", cap=True, kir
     if rest:
         rest = np.concatenate(rest)
         lo, hi = (np.broadcast_to(v, rest.shape) for v in bracket(rest))
-        res = bracketed_root(lambda L, i: exact(L, i.astype(np.intp)), lo, hi,
-                             (rest.astype(float),), xtol=xtol, what=what)
+        res = _in_blocks(_chandrupatla_block, lambda L, i: exact(L, i.astype(np.intp)), lo,
+                         hi, [rest.astype(float)], xtol, 1e-12, 100, what, total=n,
+                         stacklevel=4)
         root[rest] = res.root
     return root
 
@@ -480,17 +491,36 @@ def _solve_block(A, B, D, r0, lo, hi, method, cap, kirkham, xtol):
         root[idx] = L
         done[idx] = good
     done &= (root >= lo) & (root <= hi)
+    if cap:
+        # d = pi (L^2 - B) / (8 A) at the root of G: above D if L passes L_D, and
+        # then the root is L_D itself (the bracketed solver finds it)
+        done &= root <= L_D
+    if method == "moody":
+        # Moody's d jumps up where D/L passes 0.3 (W drops by 0.021); when the
+        # equation changes sign down across that jump it has a root on each
+        # side, and the bracketed solver picks one as it always did.
+        Lj = D / 0.3
+        u = Lj - B / Lj
+        w_deep = np.log(Lj / r0) - 1.15
+        w_shallow = (0.125 * _PI) * (1.0 / 0.3 + (8.0 / _PI) * np.log(D / r0) - 3.55
+                                     + 1.6 * 0.3 - 2.0 * 0.09)
+        done &= ~((Lj > lo) & (Lj < hi) & (w_deep * u > A) & (w_shallow * u < A))
     return root, done
 
 
 def _g(wfun, L, A, B, wargs):
-    """G = W (L - B/L) - A and its first two derivatives."""
-    w, w1, w2 = wfun(L, *wargs)
+    """G = W (L - B/L) - A and its first two derivatives (the first only if wfun
+    gives W and W' only)."""
+    out = wfun(L, *wargs)
+    w, w1 = out[0], out[1]
     inv_l = 1.0 / L
     bl = B * inv_l
     u = L - bl
     u1 = 1.0 + bl * inv_l
-    return w * u - A, w1 * u + w * u1, w2 * u + 2.0 * w1 * u1 - 2.0 * w * bl * inv_l * inv_l
+    if len(out) == 2:
+        return w * u - A, w1 * u + w * u1
+    return (w * u - A, w1 * u + w * u1,
+            out[2] * u + 2.0 * w1 * u1 - 2.0 * w * bl * inv_l * inv_l)
 
 
 def _w_args(small, method, kirkham, D, r0, gamma):
@@ -521,15 +551,15 @@ def _w_func(small, method, kirkham, terms):
     if small:
         def wfun(L, inv_d, gamma, D, r0):
             w, w1, w2 = _w_small(L, inv_d, gamma, terms)
-            if kirkham:
-                e2, e2s = _kirkham_e2_small(L, D, r0)
-                return w - e2, w1 - e2s, w2
+            if kirkham:           # Newton: W' in closed form, W'' not needed
+                e2, e2s, _ = _kirkham_e2_small(L, D, r0)
+                return w - e2, w1 - e2s
             return w, w1, w2
     else:
         def wfun(L, two_pi_d, ln_pr, D, r0):
             w, w1, w2 = _w_large(L, two_pi_d, ln_pr, terms)
             if kirkham:
-                e2, e2s = _kirkham_e2_large(L, D, r0)
-                return w - e2, w1 - e2s, w2
+                e2, e2s, _ = _kirkham_e2_large(L, D, r0)
+                return w - e2, w1 - e2s
             return w, w1, w2
     return wfun
