@@ -20,12 +20,15 @@ _CORE = (
     "molen_wesseling_f",
     "hooghoudt_spacing", "hooghoudt_head", "hooghoudt_recharge", "hooghoudt_water_table",
     "kirkham_f", "kirkham_head", "kirkham_spacing",
-    "ERNST_GEOMETRY_TABLE", "ernst_geometry_factor", "ernst_head", "ernst_spacing",
+    "ERNST_GEOMETRY_TABLE", "ernst_geometry_factor", "ernst_head", "ernst_layer_caution",
+    "ernst_spacing",
     "ernst_profile_spacing", "ernst_profile_terms",
     "FLOW_DEPTHS", "INITIAL_SHAPES", "glover_dumm_flow_depth", "glover_dumm_head",
     "glover_dumm_profile",
     "glover_dumm_spacing", "reaction_factor",
     "drain_radius_table", "effective_radius", "ditch_radius", "square_envelope_radius",
+    "SimulationResult", "boussinesq_simulation", "de_zeeuw_hellinga_simulation",
+    "de_zeeuw_hellinga_reaction_factor", "et_reduction_factor", "sew30",
 )
 
 __all__ = ["__version__", "DrainplanError", "InputError", "GeometryError",

@@ -99,11 +99,18 @@ def _soil_args(s):
     return out
 
 
-def _spacing(p, method, depth, k_scale=1.0, quiet=True):
-    """drain_spacing for the project at one depth; None where the method does not apply."""
+def _spacing(p, method, depth, k_scale=1.0, quiet=True, over=None):
+    """drain_spacing for the project at one depth; None where the method does not apply.
+
+    ``over`` replaces inputs for a sensitivity case: ``drainable_porosity``,
+    ``barrier_depth`` or ``radius`` (SI)."""
     c, d = p.criteria, p.drains
+    over = over or {}
     s = _soil_at(p, depth)
-    args = dict(method=method, drain_depth=depth, drain_radius=d["radius"],
+    for key in ("drainable_porosity", "barrier_depth"):
+        if key in over:
+            s[key] = over[key]
+    args = dict(method=method, drain_depth=depth, drain_radius=over.get("radius", d["radius"]),
                 equivalent_depth_method=d.get("equivalent_depth", "series"), **_soil_args(s))
     for key in ("k", "k_above", "k_below"):
         if key in args:
@@ -161,6 +168,7 @@ def design(project, *, progress=None):
     """
     say = progress or (lambda text: None)
     p = project
+    text_warnings = _check_sheet_text(p)
     c, d = p.criteria, p.drains
     steady_method = c.get("method", "hooghoudt")
     if steady_method == "glover-dumm":
@@ -202,7 +210,8 @@ def design(project, *, progress=None):
                              (f" ({notes})" if notes else ""))
     pick = usable[-1] if d.get("choose_depth", "deepest") == "deepest" else usable[0]
     depth = pick["drain_depth_m"]
-    inc = d.get("spacing_increment", 1.0)
+    us = p.report.get("units", "metric") == "us"
+    inc = d.get("spacing_increment", US_SPACING_INCREMENT if us else 1.0)
     raw_spacing = pick["governing_spacing_m"]
     spacing = max(inc, math.floor(raw_spacing / inc + 1e-9) * inc)
     governing = ("steady" if has_steady and pick.get("steady_spacing_m") == raw_spacing
@@ -216,20 +225,22 @@ def design(project, *, progress=None):
         r = _spacing(p, m, depth)
         if r is None:
             continue
-        entry = {"method": m, "spacing_m": None, "equivalent_depth_m": None, "note": None}
+        entry = {"method": m, "spacing_m": None, "equivalent_depth_m": None, "note": None,
+                 "warnings": []}
         if isinstance(r, Exception):
             entry["note"] = str(r)
         else:
             entry["spacing_m"] = _f(r.spacing)
             entry["equivalent_depth_m"] = _f(r.equivalent_depth)
+            entry["flow_depth_m"] = _f(r.flow_depth) if r.flow_depth is not None else None
+            entry["head_m"] = _f(r.head, 4)
+            entry["depth_to_barrier_m"] = _f(r.depth_to_barrier, 4)
+            entry["details"] = {k: _f(v, 6) for k, v in r.extra.items()}
+            entry["warnings"] = list(r.warnings)
             if m == chosen_method:
                 main_result = r
         comparison.append(entry)
-    sensitivity = []
-    for factor in (0.5, 1.0, 2.0):
-        r = _spacing(p, chosen_method, depth, k_scale=factor)
-        sensitivity.append({"k_factor": factor, "spacing_m": _f(r.spacing)
-                            if r is not None and not isinstance(r, Exception) else None})
+    sensitivity = _sensitivity(p, depth, steady_method if has_steady else None, has_falling)
 
     # layout
     say("layout")
@@ -248,7 +259,9 @@ def design(project, *, progress=None):
         id_field=fl.get("id_attribute"), crs=fl.get("crs"), work_crs=fl.get("work_crs"),
         exclude_path=fl.get("exclusions"), exclude_layer=fl.get("exclusions_layer"),
         exclude_setback=fl.get("exclusion_setback", 15.0), outlet=fl.get("outlet"),
-        repair=lo.get("repair", False)))
+        repair=lo.get("repair", False), survey_path=p.pipes.get("survey"),
+        survey_crs=p.pipes.get("survey_crs"),
+        survey_z_unit=p.pipes.get("survey_z_unit", "m")))
 
     # pipes
     say("pipes")
@@ -278,9 +291,195 @@ def design(project, *, progress=None):
 
     say("water-table curves")
     figures = _figure_data(p, depth, spacing, main_result, chosen_method)
+    figures["units"] = p.report.get("units", "metric")
+    falling = _falling_discharge(p, figures, coef) if has_falling else None
     summary = _summary(p, table, depth, spacing, raw_spacing, governing, chosen_method,
                        comparison, sensitivity, lp, pipes_plan, main_result, coef)
+    summary["design"]["falling_discharge"] = falling
+    summary["design"]["warnings"], extra_notes = _design_warnings(p, comparison, chosen_method,
+                                                                  falling)
+    summary["design"]["notes"] += extra_notes
+    summary["design"]["warnings"] = text_warnings + summary["design"]["warnings"]
     return DesignResult(p, summary, lp, pipes_plan, figures)
+
+
+#: Spacing rounding for a project shown in US units when the project gives none: 5 ft
+#: (spacings are laid out in whole feet, usually in 5 ft steps) [PRACTICE].
+US_SPACING_INCREMENT = 5 * 0.3048
+
+
+def _check_sheet_text(p):
+    """Project text that goes on the sheet: control characters stripped (warned), and
+    right-to-left text or characters the sheet font lacks refused before any work."""
+    from ._text import check_text
+
+    warnings = []
+    for section, keys in (("site", ("name", "client", "location", "designer", "date",
+                                    "notes")),
+                          ("soil", ("source",)), ("criteria", ("source",))):
+        values = getattr(p, section)
+        for key in keys:
+            if isinstance(values.get(key), str):
+                values[key], w = check_text(values[key], f"{section}.{key}")
+                warnings += w
+    for i, ly in enumerate(p.soil.get("layers") or [], start=1):
+        if isinstance(ly.get("name"), str):
+            ly["name"], w = check_text(ly["name"], f"soil.layers[{i}].name")
+            warnings += w
+    return warnings
+
+
+#: Sensitivity cases: input, label, how the low and high values are made.
+SENSITIVITY_FACTORS = {"k": (0.5, 2.0), "drainable_porosity": (0.5, 1.5),
+                       "barrier_depth": (0.5, 2.0)}
+
+
+def _governing_spacing(p, depth, steady_method, has_falling, **kw):
+    """Narrowest spacing of the project's criteria at one depth, and which criterion."""
+    out = []
+    if steady_method:
+        r = _spacing(p, steady_method, depth, **kw)
+        if r is not None and not isinstance(r, Exception) and np.isfinite(r.spacing):
+            out.append((float(r.spacing), "steady"))
+    if has_falling:
+        r = _spacing(p, "glover-dumm", depth, **kw)
+        if r is not None and not isinstance(r, Exception) and np.isfinite(r.spacing):
+            out.append((float(r.spacing), "falling"))
+    return min(out) if out else (None, None)
+
+
+def _radius_steps(r0):
+    """Neighbouring effective radii in the pipe table below and above ``r0`` (half and
+    double where the table has none): the sensitivity to the drain and its envelope."""
+    from .spacing.drain_radius import drain_radius_table
+
+    rows = sorted(drain_radius_table(), key=lambda r: r["radius_m"])
+    below = [r for r in rows if r["radius_m"] < r0 * (1 - 1e-9)]
+    above = [r for r in rows if r["radius_m"] > r0 * (1 + 1e-9)]
+    lo = (below[-1]["radius_m"], below[-1]["name"]) if below else (r0 / 2.0, None)
+    hi = (above[0]["radius_m"], above[0]["name"]) if above else (r0 * 2.0, None)
+    return lo, hi
+
+
+def _sensitivity(p, depth, steady_method, has_falling):
+    """Design spacing (narrowest of the criteria, before rounding) at a low, the base and
+    a high value of each uncertain input, the others held at their base values."""
+    s = _soil_at(p, depth)
+    base_L, base_c = _governing_spacing(p, depth, steady_method, has_falling)
+    rows = []
+
+    def case(over=None, k_scale=1.0):
+        L, crit = _governing_spacing(p, depth, steady_method, has_falling, over=over,
+                                     k_scale=k_scale)
+        return {"spacing_m": _f(L), "criterion": crit}
+
+    two_k = "k" not in s
+    lo, hi = SENSITIVITY_FACTORS["k"]
+    rows.append({"input": "k", "label": ("K above and below drain level, scaled together"
+                                         if two_k else "hydraulic conductivity K"),
+                 "role": "conductivity", "factors": [lo, 1.0, hi],
+                 "values": None if two_k else [_f(s["k"] * f, 6) for f in (lo, 1.0, hi)],
+                 "cases": [case(k_scale=lo), {"spacing_m": _f(base_L), "criterion": base_c},
+                           case(k_scale=hi)]})
+    if has_falling and s.get("drainable_porosity") is not None:
+        mu = s["drainable_porosity"]
+        lo, hi = SENSITIVITY_FACTORS["drainable_porosity"]
+        vals = [mu * lo, mu, min(mu * hi, 0.5)]
+        rows.append({"input": "drainable_porosity", "label": "drainable porosity μ",
+                     "role": None, "factors": [lo, 1.0, hi], "values": [_f(v, 4) for v in vals],
+                     "cases": [case(over={"drainable_porosity": vals[0]}),
+                               {"spacing_m": _f(base_L), "criterion": base_c},
+                               case(over={"drainable_porosity": vals[2]})]})
+    D = s["barrier_depth"] - depth
+    if D > 0:
+        lo, hi = SENSITIVITY_FACTORS["barrier_depth"]
+        vals = [depth + D * lo, s["barrier_depth"], depth + D * hi]
+        rows.append({"input": "barrier_depth", "label": "barrier depth (depth below the "
+                     "drains halved and doubled)", "role": "length", "factors": [lo, 1.0, hi],
+                     "values": [_f(v, 4) for v in vals],
+                     "cases": [case(over={"barrier_depth": vals[0]}),
+                               {"spacing_m": _f(base_L), "criterion": base_c},
+                               case(over={"barrier_depth": vals[2]})]})
+    r0 = p.drains["radius"]
+    (rlo, nlo), (rhi, nhi) = _radius_steps(r0)
+    rows.append({"input": "radius", "label": "effective drain radius (pipe and envelope)",
+                 "role": "radius", "factors": [rlo / r0, 1.0, rhi / r0],
+                 "values": [_f(rlo, 5), _f(r0, 5), _f(rhi, 5)], "names": [nlo, None, nhi],
+                 "cases": [case(over={"radius": rlo}),
+                           {"spacing_m": _f(base_L), "criterion": base_c},
+                           case(over={"radius": rhi})]})
+    return rows
+
+
+def _falling_discharge(p, fd, coef):
+    """Drain discharge per unit area that the falling criterion implies at the design
+    spacing, against the pipe drainage coefficient.
+
+    The peak is the Glover-Dumm first term at the start of the drawdown,
+    q0 = 2 pi K D_f c h0 / L^2 = mu alpha (2/pi) c h0 (the fall of the mean height of
+    the first sine mode times mu); the mean is the volume the series drains in the
+    time allowed, mu (mean h(0) - mean h(t)) / t, both per unit area.
+    """
+    from .spacing import glover_dumm_profile
+    from .spacing.glover_dumm import INITIAL_SHAPES
+
+    if "reaction_factor" not in fd:
+        return None
+    c, s = p.criteria, _soil_at(p, fd["drain_depth"])
+    mu, a = s["drainable_porosity"], fd["reaction_factor"]
+    L, t = fd["spacing"], c["days"]
+    y0 = fd["drain_depth"] - c["initial_depth"]
+    shape = c.get("initial_shape", "parabolic")
+    cc = INITIAL_SHAPES[shape]
+    peak = mu * a * (2.0 / np.pi) * cc * y0
+    x = np.linspace(0.0, L, 2001)
+    h0, ht = (glover_dumm_profile(x, spacing=L, time=tt, initial_head=y0, reaction_factor=a,
+                                  shape=shape) for tt in (0.0, t))
+    if shape == "flat":
+        mean0 = y0
+    else:
+        mean0 = float(np.trapezoid(h0, x) / L) if hasattr(np, "trapezoid") else \
+            float(np.trapz(h0, x) / L)
+    meant = float(np.trapezoid(ht, x) / L) if hasattr(np, "trapezoid") else \
+        float(np.trapz(ht, x) / L)
+    mean = mu * (mean0 - meant) / t
+    ok = bool(p.pipes.get("accept_coefficient_below_peak", False))
+    # the first term underestimates the very start of the drawdown; where the mean over
+    # the time allowed is higher, that is the rate the pipes must at least carry
+    need = max(peak, mean)
+    return {"peak_m_per_d": _f(peak, 6), "mean_m_per_d": _f(mean, 6),
+            "coefficient_m_per_d": _f(coef, 6), "spacing_m": _f(L, 3),
+            "flow_depth_m": _f(fd["flow_depth"], 4), "k_m_per_d": _f(fd["k_flow"], 6),
+            "initial_head_m": _f(y0, 4), "drainable_porosity": _f(mu, 6),
+            "coefficient_below_peak": bool(coef < need * (1 - 1e-6)),
+            "accepted": ok, "initial_shape_coefficient": cc}
+
+
+def _design_warnings(p, comparison, method, falling):
+    """Cautions for the sheet, the summary and the command line; and notes for cautions
+    the user has accepted knowingly."""
+    out, notes = [], []
+    for m in comparison:
+        for w in m.get("warnings") or []:
+            out.append(w if m["method"] == method else
+                       f"{w} (method compared at the design depth, not the one designed with)")
+    if falling and falling["coefficient_below_peak"]:
+        from .units import show
+
+        u = p.report.get("units", "metric")
+        dg = 3 if u == "us" else 1
+        text = (f"The pipe drainage coefficient {show(falling['coefficient_m_per_d'], 'recharge', u, dg)}"
+                f" is below the peak drain discharge the falling criterion implies at this "
+                f"spacing ({show(falling['peak_m_per_d'], 'recharge', u, dg)} at the start of the "
+                f"drawdown; {show(falling['mean_m_per_d'], 'recharge', u, dg)} on average over "
+                f"the time allowed): the pipes will run surcharged and the water table will "
+                f"fall more slowly than designed.")
+        if falling["accepted"]:
+            notes.append(text + " Kept knowingly (pipes.accept_coefficient_below_peak = true).")
+        else:
+            out.append(text + " Raise pipes.coefficient, or keep it knowingly with "
+                       "pipes.accept_coefficient_below_peak = true.")
+    return out, notes
 
 
 def _figure_data(p, depth, spacing, r, method):
@@ -329,6 +528,8 @@ def _figure_data(p, depth, spacing, r, method):
                                                        shape=shape)
                 for tt in (0.0, c["days"] / 2.0, c["days"])}
             out["reaction_factor"] = float(a)
+            out["flow_depth"] = float(fd)
+            out["k_flow"] = float(k_below)
     return out
 
 
@@ -347,6 +548,28 @@ def _soil_notes(p, depth, method):
     return notes
 
 
+def _outlets(lp):
+    """Outlets of the network (the outlet point a trunk drains to, and the own end of any
+    field's main that reaches none): coordinates in the output CRS rounded to about 0.1 m
+    (6 decimals of a degree for longitude/latitude), and easting/northing in the
+    projected work CRS."""
+    ol = lp.layers["outlets"]
+    kind = np.asarray(ol["kind"]).astype(str)
+    keep = (kind == "main outlet") | (np.char.find(kind, "outlet (") >= 0) & \
+        (np.char.find(kind, "unused") < 0)
+    if not keep.any():
+        return []
+    ol = ol[keep]
+    crs = ol.crs
+    geographic = bool(crs is not None and crs.is_geographic)
+    nd = 6 if geographic else 1
+    work = ol.to_crs(lp.work_crs) if crs is not None else ol
+    return [{"field_id": str(fid), "x": _f(g.x, nd), "y": _f(g.y, nd),
+             "easting": _f(w.x, 1), "northing": _f(w.y, 1), "geographic": geographic,
+             "crs": crs.to_string() if crs is not None else None}
+            for fid, g, w in zip(ol["field_id"], ol.geometry, work.geometry)]
+
+
 def _summary(p, table, depth, spacing, raw_spacing, governing, method, comparison,
              sensitivity, lp, pipes_plan, r, coef):
     pd = pipes_plan.design
@@ -354,10 +577,7 @@ def _summary(p, table, depth, spacing, raw_spacing, governing, method, compariso
     for row in pd.reaches:
         target = lat_by_size if row["kind"] == "lateral" else main_by_size
         target[row["size"]] = target.get(row["size"], 0.0) + row["length_m"]
-    outlets = [
-        {"field_id": str(fid), "x": _f(g.x, 7), "y": _f(g.y, 7)}
-        for fid, kind, g in zip(lp.layers["outlets"]["field_id"], lp.layers["outlets"]["kind"],
-                                lp.layers["outlets"].geometry) if kind == "main outlet"]
+    outlets = _outlets(lp)
     inputs = {
         "soil": {k: (v if isinstance(v, str) else
                      [{kk: (vv if isinstance(vv, str) else _f(vv, 6)) for kk, vv in ly.items()}
@@ -371,7 +591,18 @@ def _summary(p, table, depth, spacing, raw_spacing, governing, method, compariso
                    "spacing_increment_m": _f(p.drains.get("spacing_increment", 1.0), 4),
                    "equivalent_depth": p.drains.get("equivalent_depth", "series")},
         "drainage_coefficient_m_per_d": _f(coef, 6),
+        "pipes": {"capacity_method": p.pipes.get("capacity_method", "manning"),
+                  "material": p.pipes.get("material", "corrugated"),
+                  "capacity_factor": _f(p.pipes.get("capacity_factor", 0.75), 4),
+                  "series": p.pipes.get("series", "metric")},
     }
+    outlet_flow = {}
+    for row in pd.reaches:
+        fid = str(row.get("field_id"))
+        outlet_flow[fid] = max(outlet_flow.get(fid, 0.0), float(row.get("flow_l_s") or 0.0))
+    fields = [{**f, "spacing_m": _f(spacing, 3),
+               "outlet_flow_l_s": _f(outlet_flow.get(str(f["field_id"])), 3)}
+              for f in lp.per_field]
     return {
         "project": {"file": p.path.name, **p.site},
         "design": {
@@ -389,7 +620,7 @@ def _summary(p, table, depth, spacing, raw_spacing, governing, method, compariso
         "methods": comparison,
         "sensitivity": sensitivity,
         "inputs": inputs,
-        "fields": lp.per_field,
+        "fields": fields,
         "quantities": {
             **{k: _f(v, 3) if isinstance(v, float) else v for k, v in lp.totals.items()},
             "lateral_length_by_size_m": {k: _f(v, 1) for k, v in lat_by_size.items()},
@@ -399,8 +630,13 @@ def _summary(p, table, depth, spacing, raw_spacing, governing, method, compariso
         },
         "outlets": outlets,
         "reaches": pd.reaches,
-        "takeoff": pd.takeoff,
+        "takeoff": [t for t in pd.takeoff if t["field_id"] == "all"],
+        "takeoff_by_field": [t for t in pd.takeoff if t["field_id"] != "all"],
+        "network_outlets": pd.outlets,
+        "outlet_check": next((n for n in pd.notes if n.startswith("outlet not checked")),
+                             "outlet checked against the receiving water level"),
         "pipe_problems": pd.violations,
+        "pipe_problem_summary": pd.problem_summary,
         "layout_notes": lp.notes + lp.reports,
         "pipe_notes": pd.notes,
         "references": [ref for key in ([method] + (["hooghoudt"] if method != "hooghoudt"

@@ -13,6 +13,8 @@ from ..spacing import METHODS, drain_spacing
 from ..spacing.drain_radius import drain_radius_table, effective_radius
 from ..units import display_unit, parse_quantity, show, to_display
 from .options import FRACTION, LENGTH, RATE, TIME, json_option, units_option
+from .uncertainty_options import (run_uncertainty, uncertainty_json, uncertainty_options,
+                                  uncertainty_text)
 
 
 class DrainRadius(click.ParamType):
@@ -65,11 +67,13 @@ def _parse_sweep(text):
 @click.option("--k-vertical", type=RATE, help="Vertical conductivity of the top layer (ernst).")
 @click.option("--geometry-factor", type=float,
               help="Ernst's radial geometry factor a, instead of the table.")
-@click.option("--drain-depth", type=LENGTH, required=True, help="Depth of the drains.")
-@click.option("--barrier-depth", type=LENGTH, required=True,
-              help="Depth of the impermeable barrier.")
-@click.option("--drain-radius", type=DrainRadius(), required=True,
-              help="Effective drain radius, or a pipe type (see --list-radii).")
+@click.option("--drain-depth", type=LENGTH, help="Depth of the drains (required).")
+@click.option("--barrier-depth", type=LENGTH,
+              help="Depth of the impermeable barrier (required).")
+@click.option("--drain-radius", type=DrainRadius(),
+              help="Effective drain radius, or a pipe type (see --list-radii) (required).")
+@click.option("--list-radii", is_flag=True,
+              help="List the pipe types with their effective radius and source, and exit.")
 @click.option("--recharge", type=RATE,
               help="Steady design recharge (drainage coefficient), e.g. '10 mm/d'.")
 @click.option("--water-table-depth", type=LENGTH,
@@ -98,11 +102,12 @@ def _parse_sweep(text):
 @click.option("--overwrite", is_flag=True, help="Replace an existing --plot file.")
 @units_option
 @json_option
+@uncertainty_options
 def spacing(method, k, k_above, k_below, interface_depth, k_vertical, geometry_factor,
-            drain_depth, barrier_depth, drain_radius, recharge, water_table_depth,
+            drain_depth, barrier_depth, drain_radius, list_radii, recharge, water_table_depth,
             initial_depth, final_depth, days, drainable_porosity, initial_shape, flow_depth,
             equivalent_depth_method, sweep_k, check_spacing, plot_path, overwrite, units,
-            as_json):
+            as_json, uncertainty):
     """Drain spacing for one site.
 
     Steady methods (hooghoudt, ernst, kirkham) need --recharge and
@@ -114,7 +119,17 @@ def spacing(method, k, k_above, k_below, interface_depth, k_vertical, geometry_f
         drainplan spacing --method hooghoudt --k 0.5 --drain-depth 1.2
         --barrier-depth 4 --drain-radius "5 cm" --recharge "10 mm/d"
         --water-table-depth 0.6
+
+    With --k-cv (K lognormal, the given K its median) it also gives the
+    spacing met with --confidence and the probability curve.
+
+    Pipe types for --drain-radius: drainplan spacing --list-radii
     """
+    if list_radii:
+        click.echo(_radii_listing(units, as_json))
+        return
+    _require_site(drain_depth=drain_depth, barrier_depth=barrier_depth,
+                  drain_radius=drain_radius)
     inputs = dict(method=method, drain_depth=drain_depth, barrier_depth=barrier_depth,
                   drain_radius=drain_radius, k=k, k_above=k_above, k_below=k_below,
                   interface_depth=interface_depth, k_vertical=k_vertical,
@@ -124,7 +139,7 @@ def spacing(method, k, k_above, k_below, interface_depth, k_vertical, geometry_f
                   flow_depth=flow_depth, equivalent_depth_method=equivalent_depth_method,
                   geometry_factor=geometry_factor)
     _check_method_options(inputs)
-    sweep = _parse_sweep(sweep_k) if sweep_k else None
+    sweep = _parse_sweep(sweep_k) if sweep_k is not None else None
     if plot_path and sweep is None:
         raise InputError("--plot draws the --sweep-k curve; give --sweep-k too", param="plot")
     result = _solve(inputs)
@@ -140,15 +155,53 @@ def spacing(method, k, k_above, k_below, interface_depth, k_vertical, geometry_f
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", ConvergenceWarning)
             check = run_check(spacing=check_spacing, **inputs)
+    # uncertainty (--k-cv, --confidence, ranges): sampled through the vectorised core
+    unc = run_uncertainty(inputs, uncertainty, check_spacing)
+    if unc is not None and check is not None:
+        check["probability_meets"] = unc.probability_proposed
     if plot_path:
         _write_plot(plot_path, sweep_rows, units, method, overwrite)
     if as_json:
         out = _as_json(inputs, result, sweep_rows)
         if check is not None:
             out["check"] = check
+        if unc is not None:
+            out.update(uncertainty_json(unc, uncertainty["k_cv"]))
         click.echo(json.dumps(out, indent=2))
     else:
-        click.echo(_as_text(inputs, result, sweep_rows, units, check))
+        text = _as_text(inputs, result, sweep_rows, units, check)
+        if unc is not None:
+            text += "\n" + "\n".join(uncertainty_text(unc, units))
+        click.echo(text)
+
+
+def _require_site(**values):
+    """The options every spacing needs (optional only with --list-radii)."""
+    ctx = click.get_current_context()
+    for name, value in values.items():
+        if value is None:
+            param = next(p for p in ctx.command.params if p.name == name)
+            raise click.MissingParameter(ctx=ctx, param=param)
+
+
+def _radii_listing(units, as_json):
+    """The effective-radius table: pipe type, radius, description, source, confidence."""
+    rows = drain_radius_table()
+    if as_json:
+        return json.dumps({"drain_radii": [
+            {"name": r["name"], "radius_m": r["radius_m"], "description": r["description"],
+             "source": r["source"], "confidence": r["confidence"]} for r in rows]}, indent=2)
+    digits = 2 if units == "us" else 1
+    ru = display_unit("radius", units)
+    width = max(len(r["name"]) for r in rows)
+    lines = [f"Effective drain radius by pipe type (give the type or a length to "
+             f"--drain-radius)", f"  {'type':<{width}}  {'radius (' + ru + ')':>12}  description"]
+    for r in rows:
+        lines.append(f"  {r['name']:<{width}}  "
+                     f"{float(to_display(r['radius_m'], 'radius', units)):>12.{digits}f}  "
+                     f"{r['description']}")
+        lines.append(f"  {'':<{width}}  {'':>12}  source ({r['confidence']}): {r['source']}")
+    return "\n".join(lines)
 
 
 def _write_plot(path, rows, units, method, overwrite):
@@ -161,7 +214,9 @@ def _write_plot(path, rows, units, method, overwrite):
     from ..plots import save_figure, spacing_against_k
 
     fig, ax = plt.subplots(figsize=(6, 4))
-    spacing_against_k(rows, ax=ax, units=units, title=f"{_TITLES[method]}: spacing against K")
+    spacing_against_k([(r[0], r[1]) for r in rows], ax=ax, units=units,
+                      title=f"{_TITLES[method]}: spacing against K",
+                      k_label=_sweep_label(rows, units))
     write_atomic(path, lambda tmp: save_figure(fig, tmp), overwrite=overwrite)
     plt.close(fig)
 
@@ -191,7 +246,18 @@ def _sweep(inputs, ks):
         varied["k_below"] = ks
         varied["k_above"] = ks * ratio
     res = _solve(varied)
-    return [(float(kv), float(L)) for kv, L in zip(ks, np.broadcast_to(res.spacing, ks.shape))]
+    ratio = None if inputs["k"] is not None else inputs["k_above"] / inputs["k_below"]
+    return [(float(kv), float(L), ratio)
+            for kv, L in zip(ks, np.broadcast_to(res.spacing, ks.shape))]
+
+
+def _sweep_label(rows, units):
+    """What the swept K is: one K, or K below with K above scaled with it."""
+    ku = display_unit("conductivity", units)
+    ratio = rows[0][2] if rows else None
+    if ratio is None:
+        return f"hydraulic conductivity K ({ku})"
+    return f"K below drains ({ku}); K above = {ratio:.3g} × K below, scaled together"
 
 
 def _num(v):
@@ -213,9 +279,13 @@ def _as_json(inputs, r, sweep_rows):
                    for k, v in inputs.items()},
         "details": {k: _num(v) for k, v in r.extra.items()},
         "notes": list(r.notes),
+        "warnings": list(r.warnings),
     }
     if sweep_rows is not None:
-        out["sweep"] = [{"k_m_per_d": kv, "spacing_m": _num(L)} for kv, L in sweep_rows]
+        out["sweep"] = [
+            {"k_m_per_d": kv, "spacing_m": _num(L)} if ratio is None else
+            {"k_below_m_per_d": kv, "k_above_m_per_d": kv * ratio, "spacing_m": _num(L)}
+            for kv, L, ratio in sweep_rows]
     return out
 
 
@@ -281,28 +351,51 @@ def _as_text(inputs, r, sweep_rows, units, check=None):
     lines += ["Result"] + [f"  {a:<34} {b}" for a, b in (x for x in res if x)]
     if sweep_rows is not None:
         ku, su = display_unit("conductivity", units), display_unit("spacing", units)
-        lines += ["Spacing against K", f"  {'K (' + ku + ')':>14} {'spacing (' + su + ')':>16}"]
-        for kv, L in sweep_rows:
+        ratio = sweep_rows[0][2] if sweep_rows else None
+        if ratio is None:
+            lines += ["Spacing against K",
+                      f"  {'K (' + ku + ')':>14} {'spacing (' + su + ')':>16}"]
+        else:
+            lines += [f"Spacing against K (K above and below scaled together, K above = "
+                      f"{ratio:.3g} × K below)",
+                      f"  {'K below (' + ku + ')':>14} {'spacing (' + su + ')':>16}"]
+        for kv, L, _ in sweep_rows:
             ks = float(to_display(kv, "conductivity", units))
             ls = "no solution" if not np.isfinite(L) else \
                 f"{float(to_display(L, 'spacing', units)):.1f}"
             lines.append(f"  {ks:>14.3f} {ls:>16}")
     if check is not None:
-        verdict = "MEETS the criterion" if check["meets"] else "does NOT meet the criterion"
-        lines += ["Check of the proposed spacing",
-                  f"  {'proposed spacing':<34} {show(check['proposed_spacing_m'], 'spacing', units, 1)}"
-                  f" -> {verdict} (widest that meets it: "
-                  f"{show(check['required_spacing_m'], 'spacing', units, 1)})"]
+        lines += ["Check of the proposed spacing", "  " + check_verdict_text(check, units)]
         if "midway_water_table_depth_m" in check:
-            lines.append(f"  {'midway water-table depth':<34} "
-                         f"{show(check['midway_water_table_depth_m'], 'length', units, 2)} "
-                         "under the design recharge")
+            if check.get("ponding"):
+                lines.append(f"  {'midway water table':<34} at the surface: ponding (the "
+                             "steady formula would put it "
+                             f"{show(check['height_above_surface_m'], 'length', units, 2)} "
+                             "above the ground; the excess ponds or runs off)")
+            else:
+                lines.append(f"  {'midway water-table depth':<34} "
+                             f"{show(check['midway_water_table_depth_m'], 'length', units, 2)} "
+                             "under the design recharge")
             lines.append(f"  {'drainage rate at required depth':<34} "
                          f"{show(check['drainage_rate_m_per_d'], 'recharge', units, 2)}")
         else:
             lines.append(f"  {'midway depth after the time allowed':<34} "
                          f"{show(check['midway_depth_after_days_m'], 'length', units, 2)}")
+    if r.warnings:
+        lines += ["Warnings"] + [f"  ! {w}" for w in r.warnings]
     lines += ["Notes"] + [f"  - {n}" for n in r.notes]
     lines.append("  - Check the design against local codes and have it reviewed by a "
                  "qualified professional before construction.")
     return "\n".join(lines)
+
+
+def check_verdict_text(check, units="metric"):
+    """'spacing 21.3 m, allowed 24.6 m: meets with 13 % to spare' (or 'fails by ...')."""
+    prop = show(check["proposed_spacing_m"], "spacing", units, 1)
+    if check["required_spacing_m"] is None or not np.isfinite(check["required_spacing_m"]):
+        return f"spacing {prop}: no spacing meets the criterion: fails"
+    req = show(check["required_spacing_m"], "spacing", units, 1)
+    m = check.get("margin_pct")
+    if check["meets"]:
+        return f"spacing {prop}, allowed {req}: MEETS the criterion with {m:.0f} % to spare"
+    return f"spacing {prop}, allowed {req}: does NOT meet the criterion ({-m:.0f} % too wide)"

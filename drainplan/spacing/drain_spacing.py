@@ -17,13 +17,14 @@ import numpy as np
 from ..errors import InputError
 from .._validate import refuse_where, require_positive, scalar_or_array
 from .equivalent_depth import EQUIVALENT_DEPTH_METHODS, _equivalent_depth_unchecked
-from .ernst import ernst_profile_spacing, ernst_profile_terms
+from .ernst import ernst_layer_caution, ernst_profile_spacing, ernst_profile_terms
 from .glover_dumm import (FLOW_DEPTHS, INITIAL_SHAPES, glover_dumm_flow_depth,
                           glover_dumm_head, glover_dumm_spacing, reaction_factor)
 from .hooghoudt import hooghoudt_head, hooghoudt_recharge, hooghoudt_spacing
 from .kirkham import kirkham_f, kirkham_spacing
 
-__all__ = ["METHODS", "STEADY_METHODS", "SpacingResult", "drain_spacing", "check_spacing"]
+__all__ = ["METHODS", "STEADY_METHODS", "SpacingResult", "drain_spacing", "check_spacing",
+           "CHECK_SPACING_RANGE"]
 
 #: Method names accepted by :func:`drain_spacing` (also the CLI choices).
 METHODS = ("hooghoudt", "ernst", "kirkham", "glover-dumm")
@@ -58,6 +59,8 @@ class SpacingResult:
         Method-specific values (reaction factor, Ernst head losses, ...).
     notes : tuple of str
         Assumptions and choices a reviewer should see.
+    warnings : tuple of str
+        Cautions: the method is used outside the case it was built for.
     """
 
     method: str
@@ -68,6 +71,7 @@ class SpacingResult:
     depth_to_barrier: object
     extra: dict = field(default_factory=dict)
     notes: tuple = ()
+    warnings: tuple = ()
 
 
 def _arr(v):
@@ -265,8 +269,13 @@ def _drain_spacing(method, drain_depth, barrier_depth, drain_radius, k, k_above,
                 notes.append("geometry factor a from the ILRI Table 8.2 values as recalled "
                              "(not verified against the book); give it directly to override")
         notes += _range_notes(L)
+        cautions = ()
+        if method == "ernst":
+            c = ernst_layer_caution(drain_depth=zd, interface_depth=interface_depth,
+                                    k_top=ka, k_bottom=kb)
+            cautions = (c,) if c else ()
         return SpacingResult(method, L, d, None, scalar_or_array(h), scalar_or_array(D),
-                             extra, tuple(notes))
+                             extra, tuple(notes), cautions)
 
     # falling water table
     z0 = _arr(_require(initial_depth, "initial_depth", "initial water-table depth"))
@@ -357,13 +366,27 @@ def _safe(fn):
             return None
 
 
+#: Proposed spacings outside this range are refused by :func:`check_spacing` [m]:
+#: below 1 m a pipe drain is closer to its neighbour than a trench is wide, above
+#: 1000 m the water table midway stands metres above the ground under any design
+#: recharge, and the linearised formulas have lost their meaning [PRACTICE].
+CHECK_SPACING_RANGE = (1.0, 1000.0)
+
+
+def _margin_at_most(proposed, allowed):
+    """Share [%] by which ``proposed`` stays under ``allowed`` (negative: over it)."""
+    if not (np.isfinite(allowed) and allowed > 0):
+        return None
+    return 100.0 * (allowed - proposed) / allowed
+
+
 def check_spacing(*, spacing, **site):
     """Check a proposed spacing against the site's criterion.
 
     Parameters
     ----------
     spacing : float
-        Proposed drain spacing [m], > 0.
+        Proposed drain spacing [m], 1-1000 m (:data:`CHECK_SPACING_RANGE`).
     **site
         The keyword arguments of :func:`drain_spacing` (method, depths, soil,
         criterion).
@@ -372,28 +395,51 @@ def check_spacing(*, spacing, **site):
     -------
     dict
         ``proposed_spacing_m``, ``required_spacing_m`` (the widest spacing that
-        meets the criterion), ``meets`` (bool), and for steady methods
-        ``midway_water_table_depth_m`` (under the design recharge) and
-        ``drainage_rate_m_per_d`` (what the spacing removes with the water table
-        at the required depth); for the falling water table
+        meets the criterion), ``meets`` (bool), ``margin_pct`` (how much
+        narrower than the widest allowed spacing the proposal is, in % of that
+        spacing; negative when it is wider), and for steady methods
+        ``midway_water_table_depth_m`` (under the design recharge; 0 when the
+        water table would reach the surface), ``ponding`` (bool) and
+        ``height_above_surface_m`` (how far above the surface the steady
+        formula puts the water table when it ponds; 0 otherwise) and
+        ``drainage_rate_m_per_d`` (what the spacing removes with the water
+        table at the required depth); for the falling water table
         ``midway_depth_after_days_m`` (full series).
+
+    Raises
+    ------
+    drainplan.errors.InputError
+        A spacing outside 1-1000 m, or any input :func:`drain_spacing` refuses.
+
+    Notes
+    -----
+    The water table cannot stand above the ground: where the steady formula
+    puts it higher, the recharge it cannot carry ponds or runs off. The check
+    then reports ``ponding`` and by how much the formula overshoots, never a
+    negative depth.
 
     Examples
     --------
     >>> c = check_spacing(spacing=50.0, method="hooghoudt", drain_depth=1.2,
     ...                   barrier_depth=6.0, drain_radius=0.1, k=0.14, recharge=0.001,
     ...                   water_table_depth=0.2)
-    >>> c["meets"], round(c["midway_water_table_depth_m"], 2)
-    (True, 0.51)
+    >>> c["meets"], round(c["midway_water_table_depth_m"], 2), round(c["margin_pct"])
+    (True, 0.51, 22)
     """
     L = float(spacing)
     if not (np.isfinite(L) and L > 0):
         raise InputError("proposed spacing must be greater than 0 m", param="check_spacing")
+    lo, hi = CHECK_SPACING_RANGE
+    if not lo <= L <= hi:
+        raise InputError(f"proposed spacing {L:g} m is outside {lo:g}-{hi:g} m, the range "
+                         "where pipe drains are laid and these formulas mean anything "
+                         "(practical spacings are 2-300 m)", param="check_spacing")
     req = drain_spacing(**site)
     method = site["method"]
     L_req = float(req.spacing)
     out = {"method": method, "proposed_spacing_m": L, "required_spacing_m": L_req,
-           "meets": bool(np.isfinite(L_req) and L <= L_req * (1 + 1e-9))}
+           "meets": bool(np.isfinite(L_req) and L <= L_req * (1 + 1e-9)),
+           "margin_pct": _margin_at_most(L, L_req)}
     zd = float(site["drain_depth"])
     D = float(req.depth_to_barrier)
     r0 = float(site["drain_radius"])
@@ -420,7 +466,10 @@ def check_spacing(*, spacing, **site):
             resistance = float(t["vertical"] + t["horizontal"] + t["radial"])
             h = q * resistance
             rate = h_req / resistance
-        out["midway_water_table_depth_m"] = zd - h
+        depth = zd - h
+        out["midway_water_table_depth_m"] = max(depth, 0.0)
+        out["ponding"] = bool(depth < 0)
+        out["height_above_surface_m"] = max(-depth, 0.0)
         out["drainage_rate_m_per_d"] = rate
     else:
         y0 = float(req.head)

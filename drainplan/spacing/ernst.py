@@ -16,7 +16,7 @@ from .._validate import as_float_arrays, require_positive, require_nonnegative, 
 from ..errors import InputError
 
 __all__ = ["ernst_head", "ernst_spacing", "ernst_geometry_factor", "ernst_profile_spacing",
-           "ernst_profile_terms", "ERNST_GEOMETRY_TABLE"]
+           "ernst_profile_terms", "ERNST_GEOMETRY_TABLE", "ernst_layer_caution"]
 
 #: Geometry factor a for radial flow when the drains lie in the top layer of a
 #: two-layer profile, by K_bottom / K_top (rows) and D_bottom / D_top
@@ -219,6 +219,35 @@ def ernst_geometry_factor(k_ratio, thickness_ratio):
     return scalar_or_array(a)
 
 
+#: Range of Ernst's geometry factor a accepted from a user: 1 for a homogeneous
+#: radial zone, up to about 33 in ILRI Table 8.2 (as recalled); 100 leaves room.
+GEOMETRY_FACTOR_RANGE = (1.0, 100.0)
+
+
+def _check_geometry_factor(a, radial_thickness, wet_perimeter):
+    """Refuse a user geometry factor outside its physical range.
+
+    The radial head loss (q L / (pi K_r)) ln(a D_r / u) is a loss only while
+    a D_r > u; a below 1 has no counterpart in Ernst's cases (a = 1 for a
+    homogeneous radial zone, larger when a more permeable layer lies below).
+    """
+    a = np.asarray(a, float)
+    lo, hi = GEOMETRY_FACTOR_RANGE
+    bad = ~np.isnan(a) & ~((a >= lo) & (a <= hi))
+    if np.any(bad):
+        v = float(a[bad].flat[0])
+        raise InputError(f"geometry factor a = {v:g} is outside {lo:g}-{hi:g}: a is 1 for a "
+                         "homogeneous radial zone and grows to about 33 where a more "
+                         "permeable layer lies below (ILRI Table 8.2)",
+                         param="geometry_factor")
+    with np.errstate(invalid="ignore"):
+        neg = ~np.isnan(a) & (a * radial_thickness <= wet_perimeter)
+    if np.any(neg):
+        raise InputError("geometry factor a times the radial-zone thickness must exceed the "
+                         "wet perimeter pi r0, or the radial head loss would be negative",
+                         param="geometry_factor")
+
+
 def _overlap(a0, a1, b0, b1):
     return np.maximum(0.0, np.minimum(a1, b1) - np.maximum(a0, b0))
 
@@ -411,7 +440,7 @@ def ernst_profile_spacing(*, head, recharge, drain_depth, barrier_depth, k_top, 
         a_user = np.full(h.shape, np.nan)
     else:
         a_user = np.broadcast_to(np.asarray(geometry_factor, float), h.shape)
-        require_positive(a_user, "geometry_factor", "geometry factor", "-")
+        _check_geometry_factor(a_user, np.minimum(radial, 1.0e9), np.pi * r0)
 
     def f(L, h, q, zd, zb, kt, kb, zi, r0, kv, a_user):
         t = ernst_profile_terms(spacing=L, head=h, drain_depth=zd, barrier_depth=zb,
@@ -425,3 +454,59 @@ def ernst_profile_spacing(*, head, recharge, drain_depth, barrier_depth, k_top, 
     res = bracketed_root(f, lo, hi, (h, q, zd, zb, kt, kb, zi, r0, kv, a_user), xtol=xtol,
                          what="Ernst spacing")
     return scalar_or_array(res.root)
+
+
+def ernst_layer_caution(*, drain_depth, interface_depth, k_top, k_bottom):
+    """Caution text where Ernst is applied outside the layered case it was built for.
+
+    Parameters
+    ----------
+    drain_depth : array_like
+        Depth of the drains below the surface [m].
+    interface_depth : array_like or None
+        Depth of the layer interface below the surface [m]; None or a depth at
+        or above the drains means the drains lie in the bottom layer.
+    k_top, k_bottom : array_like
+        Conductivity of the top and of the bottom layer [m/d].
+
+    Returns
+    -------
+    str or None
+        The caution, or None where the case is one Ernst's method covers.
+
+    Notes
+    -----
+    Ernst's geometry factor a for drains in the top layer was tabulated for a
+    bottom layer at least as permeable as the top one, K_b/K_t from 1 to 50
+    (ILRI Publication 16, Table 8.2 [MEMORY]); below K_b/K_t = 0.1 the bottom
+    layer counts as impermeable. Between 0.1 and 1 -- a top layer far more
+    permeable than the one below -- drainplan interpolates a between 1 and the
+    homogeneous value: that extension is drainplan's own, not a published
+    table, so the result is flagged and Hooghoudt is suggested (interface at
+    drain level with K above and below, or the top layer alone with the
+    barrier at the interface).
+
+    Examples
+    --------
+    >>> ernst_layer_caution(drain_depth=1.0, interface_depth=1.5, k_top=2.0,
+    ...                     k_bottom=0.5)[:40]
+    'Ernst outside the case it was built for:'
+    >>> ernst_layer_caution(drain_depth=1.0, interface_depth=1.5, k_top=0.5,
+    ...                     k_bottom=2.0) is None
+    True
+    """
+    if interface_depth is None:
+        return None
+    zd, zi, kt, kb = as_float_arrays(drain_depth, interface_depth, k_top, k_bottom)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ratio = kb / kt
+    hit = (zi > zd) & (ratio >= 0.1) & (ratio < 1.0)
+    if not np.any(hit):
+        return None
+    r = float(np.min(ratio[hit]))
+    return ("Ernst outside the case it was built for: the drains lie in a top layer "
+            f"{1.0 / r:.3g} times more permeable than the layer below (K_b/K_t = {r:.2g}); "
+            "Ernst's geometry factor is tabulated for K_b/K_t of 1 to 50, and the values "
+            "used below 1 are drainplan's own interpolation, not a published table. "
+            "Use Hooghoudt instead (interface at drain level with K above and below, or "
+            "the top layer alone with the barrier at the interface depth).")
