@@ -10,7 +10,6 @@ dates (reportlab's invariant mode).
 from __future__ import annotations
 
 import io
-import os
 
 from ._templates import template_text
 
@@ -117,7 +116,7 @@ def _image(png, width, fit=False):
     class _Fit(Flowable):
         def wrap(self, aw, ah):
             scale = min(1.0, aw / width, max(ah - 2, 0) / (width * ih / iw))
-            if scale < 0.6:
+            if scale < 0.7:
                 scale = min(1.0, aw / width)
             self.w, self.h = width * scale, width * ih / iw * scale
             img.drawWidth, img.drawHeight = self.w, self.h
@@ -330,7 +329,7 @@ def _sensitivity_rows(s, f, P):
                 vtxt = f.radius(val)
                 name = (r.get("names") or [None] * 3)[i]
                 if name:
-                    vtxt += f" ({name})"
+                    vtxt += f" ({_type_label(name, f.units)})"
             elif r["role"] == "conductivity":
                 vtxt = f.cond(val)
             else:
@@ -382,7 +381,6 @@ def build_sheet(summary, figures_png, path, *, units="metric", paper="A4", logo=
     _fonts()
     st = _styles()
     f = _Fmt(units)
-    us = f.us
     L_u = f.unit("length")
     text_warnings = []
 
@@ -663,6 +661,24 @@ def build_sheet(summary, figures_png, path, *, units="metric", paper="A4", logo=
     finally:
         rl_config.invariant = old
     return text_warnings
+
+
+def _type_label(name, units):
+    """A pipe type name as words, sizes in the sheet's units ('gravel envelope 12 in')."""
+    import re
+
+    from .units import to_display
+
+    def size(m):
+        mm = float(m.group(1))
+        if units == "us":
+            return f" {float(to_display(mm / 1000.0, 'radius', units)):.0f} in"
+        return f" {mm:g} mm"
+
+    text = re.sub(r"-?(\d+(?:\.\d+)?)mm", size, name)
+    text = re.sub(r"-?(\d+)in\b", r" \1 in", text)
+    text = re.sub(r"(\d)row\b", r"\1 row", text)
+    return text.replace("-", " ").replace("  ", " ").strip()
 
 
 def _show_density(v, units):
