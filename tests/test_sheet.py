@@ -430,11 +430,14 @@ def test_sheet_polish(demo, tmp_path):
     assert not re.search(r"\d+\.\d{7,}", text)                     # no 7-decimal coordinates
     for o in demo.summary["outlets"]:
         assert f"{abs(o['y']):.6f}°" in pages[0]
-    # take-off and page 1 agree: lateral pipe = perforated laterals + connectors
-    lat = sum(t["length_m"] for t in demo.summary["takeoff"] if t["kind"] == "lateral")
+    # take-off and page 1 agree: perforated pipe = the laterals of the layout, solid pipe =
+    # the rest of the take-off's pipe
+    take = [t for t in demo.summary["takeoff"] if t["length_m"]]
+    lat = sum(t["length_m"] for t in take if t["kind"] == "lateral")
+    solid = sum(t["length_m"] for t in take if t["kind"] != "lateral")
     q = demo.summary["quantities"]
-    assert lat == pytest.approx(q["lateral_length_m"] + q["connector_length_m"], abs=0.5)
-    assert f"{lat:.0f} m" in pages[0]
+    assert lat == pytest.approx(q["lateral_length_m"], abs=0.5)
+    assert f"{lat:.0f} m" in pages[0] and f"{solid:.0f} m" in pages[0]
     # no heading left alone at the foot of a page
     headings = {"Design", "Warnings", "Key quantities", "Inputs", "Fields", "Profiles",
                 "Quantity take-off", "References", "Sensitivity of the design spacing",
