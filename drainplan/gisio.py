@@ -198,7 +198,8 @@ def read_layer(path, *, layer=None, crs=None, what="fields", option="FIELDS"):
     if not hasattr(gdf, "geometry") or "geometry" not in getattr(gdf, "columns", []):
         raise InputError(f"{what} file {path} holds no geometries (a table without "
                          "coordinates?)", param=option)
-    gdf = _drop_z(gdf)
+    if what != "proposal":          # a proposal's line Z values are surveyed pipe inverts
+        gdf = _drop_z(gdf)
     bounds = np.asarray(gdf.total_bounds, float) if len(gdf) else np.full(4, np.nan)
     if len(gdf) and not gdf.geometry.is_empty.all():
         if not np.all(np.isfinite(bounds)) or np.max(np.abs(bounds)) > MAX_COORDINATE:
