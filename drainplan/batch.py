@@ -400,47 +400,32 @@ def pipe_columns(settings):
             + [f"main_{_size_label(s)}_m" for s in series.nominal])
 
 
-def _pipe_quantities(lay, spacing, series, settings, select_size):
-    """Lateral and main lengths by size and the outlet flow of each field of a layout.
+def _pipe_flows(lay, spacing, coefficient):
+    """Design flows of the lateral runs and main reaches of a layout.
 
-    Laterals carry q x (perforated length x spacing); a main reach between two
-    junctions carries the laterals upstream of it. Every pipe is sized at the
-    project's minimum grade (a batch has no terrain): the conservative size.
+    A lateral carries q x (perforated length x spacing); a main reach between two
+    junctions carries the laterals upstream of it. Returns ``(run_field, run_flow,
+    run_length)`` and ``(reach_field, reach_flow, reach_length)`` [m3/s, m]; field
+    indices are those of the layout.
     """
     import shapely
 
-    pp = settings.pipes
-    coef = settings.coefficient
-    grade = pp.get("min_grade", 0.001)
-    method = pp.get("capacity_method", "manning")
-    factor = pp.get("capacity_factor", 0.75)
-    nf, ns = lay.bearing.size, len(series.nominal)
-    lat_len = np.zeros((nf, ns))
-    main_len = np.zeros((nf, ns))
-    beyond = np.zeros(nf)
-    flow = np.zeros(nf)
+    empty = (np.empty(0, int), np.empty(0), np.empty(0))
     if lay.lateral_field.size == 0:
-        return lat_len, main_len, beyond, flow
+        return empty, empty
     key = np.stack([lay.lateral_field, lay.lateral_line, lay.lateral_side], axis=1)
     runs, inv = np.unique(key, axis=0, return_inverse=True)
     inv = inv.ravel()
     perf = np.bincount(inv, weights=lay.lateral_length, minlength=len(runs))
-    q_run = coef * perf * spacing / _SECONDS_PER_DAY
-    size, _ = select_size(q_run, np.full(q_run.shape, grade), series, method=method,
-                          uniform_inflow=True, capacity_factor=factor)
-    size = np.atleast_1d(size)
+    q_run = coefficient * perf * spacing / _SECONDS_PER_DAY
     run_len = perf.copy()
-    if lay.connectors.size:
+    if lay.connectors.size:                # solid connectors: same pipe as their run
         ckey = np.stack([lay.connector_field, lay.connector_line, lay.connector_side], axis=1)
         pos = _rows_in(runs, ckey)
         hit = pos >= 0
         np.add.at(run_len, pos[hit], shapely.length(lay.connectors)[hit])
-    rf = runs[:, 0]
-    ok = size >= 0
-    np.add.at(lat_len, (rf[ok], size[ok]), run_len[ok])
-    np.add.at(beyond, rf[~ok], run_len[~ok])
-    flow = np.bincount(rf, weights=q_run, minlength=nf)
-    # mains: reaches between consecutive junctions, flow accumulating downstream
+    laterals = (runs[:, 0], q_run, run_len)
+    mains = empty
     if lay.junctions.size:
         jkey = np.stack([lay.junction_field, lay.junction_line, lay.junction_side], axis=1)
         jrun = _rows_in(runs, jkey)
@@ -455,19 +440,37 @@ def _pipe_quantities(lay, spacing, series, settings, select_size):
             start = np.r_[True, jf[1:] != jf[:-1]]
             csum = np.cumsum(jq)
             base = np.maximum.accumulate(np.where(start, csum - jq, 0.0))
-            q_cum = csum - base
-            seg = np.r_[pos[1:] - pos[:-1], 0.0]
+            q_cum = csum - base                     # flow below each junction
             last = np.r_[jf[1:] != jf[:-1], True]
-            seg = np.where(last, 0.0, seg)
+            seg = np.where(last, 0.0, np.r_[pos[1:] - pos[:-1], 0.0])
             use = seg > 0
-            msize, _ = select_size(q_cum[use], np.full(int(use.sum()), grade), series,
-                                   method=method, capacity_factor=factor)
-            msize = np.atleast_1d(msize)
-            mf, ml = jf[use], seg[use]
-            good = msize >= 0
-            np.add.at(main_len, (mf[good], msize[good]), ml[good])
-            np.add.at(beyond, mf[~good], ml[~good])
-    return lat_len, main_len, beyond, flow
+            mains = (jf[use], q_cum[use], seg[use])
+    return laterals, mains
+
+
+def _size_pipes(laterals, mains, n, series, settings, select_size):
+    """Lengths by size per field (laterals, mains), length beyond the largest size and
+    outlet flow [m3/s]. Every pipe is sized at the project's minimum grade (a batch
+    has no terrain): the conservative size. One size selection for all pipes."""
+    pp = settings.pipes
+    grade = pp.get("min_grade", 0.001)
+    method = pp.get("capacity_method", "manning")
+    factor = pp.get("capacity_factor", 0.75)
+    ns = len(series.nominal)
+    out = []
+    beyond = np.zeros(n)
+    for (f, q, length), uniform in ((laterals, True), (mains, False)):
+        by = np.zeros((n, ns))
+        if f.size:
+            size, _ = select_size(q, np.full(q.shape, grade), series, method=method,
+                                  uniform_inflow=uniform, capacity_factor=factor)
+            size = np.atleast_1d(size)
+            ok = size >= 0
+            np.add.at(by, (f[ok], size[ok]), length[ok])
+            np.add.at(beyond, f[~ok], length[~ok])
+        out.append(by)
+    flow = np.bincount(laterals[0], weights=laterals[1], minlength=n)
+    return out[0], out[1], beyond, flow
 
 
 def _rows_in(table, rows):
@@ -491,14 +494,13 @@ def _layout_quantities(geoms, spacing, settings, with_lines):
     pp, lo = settings.pipes, settings.layout
     series = pipe_series(pp.get("material", "corrugated"), pp.get("series", "metric"),
                          path=pp.get("sizes"))
-    n, ns = geoms.size, len(series.nominal)
+    n = geoms.size
     cols = {k: np.zeros(n) for k in ("lateral_length_m", "connector_length_m",
                                      "main_length_m", "drained_area_ha", "unconnected_length_m",
                                      "outlet_flow_l_s", "pipe_beyond_sizes_m")}
     cols["laterals"] = np.zeros(n, dtype=np.int64)
     cols["bearing_deg"] = np.full(n, np.nan)
-    lat_by = np.zeros((n, ns))
-    main_by = np.zeros((n, ns))
+    pipe_lat, pipe_main = [], []
     notes = np.full(n, "", dtype=object)
     lines = {"laterals": ([], [], []), "mains": ([], [], [])}
     area = np.array([shapely.area(g) if g is not None else 0.0 for g in geoms])
@@ -522,10 +524,9 @@ def _layout_quantities(geoms, spacing, settings, with_lines):
                   "drained_area_ha", "unconnected_length_m"):
             cols[k][idx] = per[k]
         cols["bearing_deg"][idx] = lay.bearing
-        la, ma, beyond, flow = _pipe_quantities(lay, float(s), series, settings, select_size)
-        lat_by[idx], main_by[idx] = la, ma
-        cols["pipe_beyond_sizes_m"][idx] = beyond
-        cols["outlet_flow_l_s"][idx] = flow * 1000.0
+        lt, mn = _pipe_flows(lay, float(s), settings.coefficient)
+        pipe_lat.append((idx[lt[0]], lt[1], lt[2]))
+        pipe_main.append((idx[mn[0]], mn[1], mn[2]))
         if with_lines:
             lt = lines["laterals"]
             lt[0].append(idx[lay.lateral_field])
@@ -539,6 +540,14 @@ def _layout_quantities(geoms, spacing, settings, with_lines):
                          else np.empty(0, object))
             mn[2].append(shapely.length(lay.mains[has].astype(object)) if has.any()
                          else np.empty(0))
+    def cat(parts):
+        return tuple(np.concatenate([p[k] for p in parts]) if parts else
+                     np.empty(0, int if k == 0 else float) for k in range(3))
+
+    lat_by, main_by, beyond, flow = _size_pipes(cat(pipe_lat), cat(pipe_main), n, series,
+                                                settings, select_size)
+    cols["pipe_beyond_sizes_m"] = beyond
+    cols["outlet_flow_l_s"] = flow * 1000.0
     for i in np.flatnonzero(todo & (cols["laterals"] == 0) & (notes == "")):
         notes[i] = "no lateral fits inside the setbacks at this spacing"
     for i in np.flatnonzero(cols["unconnected_length_m"] > 0):
@@ -772,9 +781,10 @@ def pd_notna(geoms):
 
 
 def default_partition_size(n):
-    """Fields per partition: about 64 partitions, 50-2000 fields each (depends on the
-    number of fields only, so a resumed run cuts the same partitions)."""
-    return int(min(2000, max(50, math.ceil(n / 64))))
+    """Fields per partition: about 32 partitions, 100-2000 fields each (depends on the
+    number of fields only, so a resumed run cuts the same partitions). A layout call
+    per distinct spacing costs a fixed overhead, so partitions are not made smaller."""
+    return int(min(2000, max(100, math.ceil(n / 32))))
 
 
 def _read_inputs(inp):

@@ -314,3 +314,37 @@ def test_kill_in_the_middle_then_resume(tmp_path):
     subprocess.run(command(whole), check=True, capture_output=True)
     assert_geodataframe_equal(_frame(out), _frame(whole))
     assert Path(out).read_bytes() == whole.read_bytes()
+
+
+def test_project_soil_gives_the_design_commands_spacing(run, tmp_path):
+    """Without a soil map every field takes the project's [soil]; the demo farm's
+    two-layer soil, steady and falling criteria and three drain depths give the depth
+    and spacing that `drainplan design` chooses for the same project."""
+    from drainplan.design import design
+    from drainplan.project import load_project
+
+    root = Path(__file__).resolve().parents[1] / "demo_fields"
+    out = tmp_path / "b.gpkg"
+    r = run("batch", root / "fields.geojson", "--project", root / "project.toml", "-o", out,
+            "--workers", "1")
+    assert r.exit_code == 0, r.output
+    got = read_fields(out)
+    want = design(load_project(root / "project.toml")).summary["design"]
+    assert (got["status"] == "designed").all()
+    assert (got["drain_depth_m"] == want["drain_depth_m"]).all()
+    assert (got["spacing_m"] == want["spacing_m"]).all()
+    assert np.allclose(got["spacing_calc_m"], want["spacing_before_rounding_m"], atol=1e-3)
+    assert (got["governing"] == want["governing_criterion"]).all()
+
+
+def test_resume_refuses_other_inputs(run, inputs, tmp_path):
+    out = tmp_path / "b.gpkg"
+    parts = tmp_path / ".b.gpkg.parts"
+    parts.mkdir()
+    (parts / "manifest.json").write_text('{"fingerprint": "another run"}')
+    r = run(*batch_args(inputs, out, "--resume", "--workers", "1"))
+    assert r.exit_code == 2 and "--overwrite" in r.output
+    r = run(*batch_args(inputs, out, "--workers", "1"))
+    assert r.exit_code == 2 and "--resume" in r.output
+    r = run(*batch_args(inputs, out, "--workers", "1", "--overwrite"))
+    assert r.exit_code == 0 and not parts.exists()

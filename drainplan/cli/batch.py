@@ -8,6 +8,7 @@ import time
 
 import click
 
+from ..errors import DrainplanError
 from .options import FRACTION
 
 
@@ -106,7 +107,11 @@ def batch(ctx, fields, output, project_path, layer, id_attribute, crs, work_crs,
             text += f" (+{resumed:,} from the interrupted run)"
         click.echo(text, err=True)
 
-    result = run_batch(inp, progress=progress)
+    try:
+        result = run_batch(inp, progress=progress)
+    except KeyboardInterrupt:
+        raise DrainplanError("interrupted; the partitions finished so far are kept: run the "
+                             "same command with --resume to continue") from None
     if plot:
         from ..batch_map import write_spacing_map
 
