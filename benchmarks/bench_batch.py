@@ -61,8 +61,17 @@ def district(n, seed=5):
     return fields, soil
 
 
+def _cpu():
+    """CPU seconds of this process and of its finished child processes."""
+    import resource
+
+    me = resource.getrusage(resource.RUSAGE_SELF)
+    ch = resource.getrusage(resource.RUSAGE_CHILDREN)
+    return me.ru_utime + me.ru_stime + ch.ru_utime + ch.ru_stime
+
+
 def run_once(folder, n, engine):
-    """Time one whole batch; returns (total, read+partition, parts, assemble+write) [s]."""
+    """Time one whole batch; returns (total, read+partition, parts, assemble+write, cpu) [s]."""
     marks = []
 
     def progress(done, total, resumed):
@@ -82,6 +91,7 @@ def run_once(folder, n, engine):
                                dashboard_address=None)
         scheduler = cluster.scheduler_address
     try:
+        c0 = _cpu()
         t0 = time.perf_counter()
         run_batch(BatchInputs(fields_path=str(folder / f"fields_{n}.gpkg"), output=str(out),
                               settings=SETTINGS, soil_path=str(folder / f"soil_{n}.gpkg"),
@@ -91,7 +101,8 @@ def run_once(folder, n, engine):
     finally:
         if cluster is not None:
             cluster.close()
-    return t1 - t0, marks[0][0] - t0, marks[-1][0] - marks[0][0], t1 - marks[-1][0]
+    cpu = _cpu() - c0
+    return t1 - t0, marks[0][0] - t0, marks[-1][0] - marks[0][0], t1 - marks[-1][0], cpu
 
 
 def main():
@@ -115,11 +126,12 @@ def main():
             soil.to_file(folder / f"soil_{n}.gpkg", engine="pyogrio")
             for e in engines:
                 load = os.getloadavg()[0]
-                total, pre, mid, post = run_once(folder, n, e)
-                rows.append((n, e, total, pre, mid, post, load))
+                total, pre, mid, post, cpu = run_once(folder, n, e)
+                rows.append((n, e, total, pre, mid, post, load, cpu))
                 print(f"{n:>7,} fields  {e:<5} {total:7.1f} s  (read+partition {pre:.1f} s, "
                       f"partitions {mid:.1f} s, assemble+write {post:.1f} s)  "
-                      f"{n / total:,.0f} fields/s  load {load:.1f}", flush=True)
+                      f"{n / total:,.0f} fields/s  cpu {cpu:.1f} s  load {load:.1f}",
+                      flush=True)
     load_after = os.getloadavg()
     one = [r for r in rows if r[1] == "one"]
     lines = [
@@ -136,24 +148,33 @@ def main():
         "cell per 25 fields; whole job: read, soil overlay, Hooghoudt spacing, layout "
         "quantities, pipe sizes, GeoPackage and summary written.",
         "",
-        "| fields | engine | total | read + partition | partitions | assemble + write | "
-        "fields/s | load |",
-        "| --- | --- | --- | --- | --- | --- | --- | --- |",
+        "| fields | engine | total (wall) | read + partition | partitions | "
+        "assemble + write | fields/s | CPU time | CPU ms/field | load |",
+        "| --- | --- | --- | --- | --- | --- | --- | --- | --- | --- |",
     ]
-    for n, e, total, pre, mid, post, load in rows:
+    for n, e, total, pre, mid, post, load, cpu in rows:
         lines.append(f"| {n:,} | {names[e]} | {total:.1f} s | {pre:.1f} s | {mid:.1f} s | "
-                     f"{post:.1f} s | {n / total:,.0f} | {load:.1f} |")
+                     f"{post:.1f} s | {n / total:,.0f} | {cpu:.1f} s | "
+                     f"{cpu / n * 1e3:.2f} | {load:.1f} |")
+    lines += ["", "CPU time: this process and its worker processes (user + system); on a "
+              "shared machine it is a steadier measure of the work than the wall-clock "
+              "time. The Dask rows leave out the CPU time of the cluster's worker processes "
+              "where the operating system has not yet accounted for them."]
     if one:
-        n, _, total, pre, mid, post, _ = one[-1]
-        per = mid / n                           # core-seconds per field in the partitions
-        serial = (pre + post) / n               # client-side seconds per field
+        n, _, total, pre, mid, post, _, cpu = one[-1]
+        # core-seconds per field: CPU time on one core (the wall time of a loaded machine
+        # overstates it), split between the partitions and the client's serial part
+        share = mid / total if total > 0 else 1.0
+        per = cpu * share / n
+        serial = cpu * (1 - share) / n
         big = 5_000_000
         cores = big * per / 3600.0
         lines += [
             "",
-            f"Per-field cost on one core (largest size, {n:,} fields): {per * 1e3:.2f} ms in "
-            f"the partitions, plus {serial * 1e3:.2f} ms per field of reading, "
-            "partitioning, assembling and writing on the client.",
+            f"Per-field cost on one core (largest size, {n:,} fields; CPU time, split in "
+            f"the proportion of the wall-clock phases): {per * 1e3:.2f} ms in the "
+            f"partitions, plus {serial * 1e3:.2f} ms per field of reading, partitioning, "
+            "assembling and writing on the client.",
             "",
             f"5,000,000 fields in an hour: the partitions need {big * per / 3600:,.0f} "
             f"core-hours, so about {int(np.ceil(cores * 1.25)):,} worker cores with a 25 % "

@@ -513,33 +513,37 @@ def _layout_quantities(geoms, spacing, settings, with_lines):
                 herringbone_angle=lo.get("herringbone_angle", 45.0))
     for s in np.unique(spacing[todo]):
         idx = np.flatnonzero(todo & (spacing == s))
-        try:
-            lay = layout_fields(geoms[idx], LayoutOptions(spacing=float(s), **opts))
-        except InputError:
-            notes[idx] = "field narrower than its spacing: no lateral fits"
+        lay = _layout_group(layout_fields, geoms[idx], LayoutOptions(spacing=float(s),
+                                                                          **opts))
+        if lay is None:
             continue
-        per, _ = lay.quantities(area[idx])
+        per, _ = lay.quantities(np.r_[area[idx], np.ones(lay.bearing.size - idx.size)])
+        per = {k: v[:idx.size] for k, v in per.items()}
         cols["laterals"][idx] = per["laterals"]
         for k in ("lateral_length_m", "connector_length_m", "main_length_m",
                   "drained_area_ha", "unconnected_length_m"):
             cols[k][idx] = per[k]
-        cols["bearing_deg"][idx] = lay.bearing
+        m = idx.size
+        cols["bearing_deg"][idx] = lay.bearing[:m]
         lt, mn = _pipe_flows(lay, float(s), settings.coefficient)
-        pipe_lat.append((idx[lt[0]], lt[1], lt[2]))
-        pipe_main.append((idx[mn[0]], mn[1], mn[2]))
+        k, j = lt[0] < m, mn[0] < m
+        pipe_lat.append((idx[lt[0][k]], lt[1][k], lt[2][k]))
+        pipe_main.append((idx[mn[0][j]], mn[1][j], mn[2][j]))
         if with_lines:
+            mine = lay.lateral_field < m
             lt = lines["laterals"]
-            lt[0].append(idx[lay.lateral_field])
-            lt[1].append(shapely.to_wkb(lay.laterals) if lay.laterals.size
+            lt[0].append(idx[lay.lateral_field[mine]])
+            lt[1].append(shapely.to_wkb(lay.laterals[mine]) if mine.any()
                          else np.empty(0, object))
-            lt[2].append(lay.lateral_length)
-            has = np.array([m is not None for m in lay.mains], dtype=bool)
+            lt[2].append(lay.lateral_length[mine])
+            has = np.array([x is not None for x in lay.mains[:m]], dtype=bool)
             mn = lines["mains"]
             mn[0].append(idx[has])
-            mn[1].append(shapely.to_wkb(lay.mains[has].astype(object)) if has.any()
+            mn[1].append(shapely.to_wkb(lay.mains[:m][has].astype(object)) if has.any()
                          else np.empty(0, object))
-            mn[2].append(shapely.length(lay.mains[has].astype(object)) if has.any()
+            mn[2].append(shapely.length(lay.mains[:m][has].astype(object)) if has.any()
                          else np.empty(0))
+
     def cat(parts):
         return tuple(np.concatenate([p[k] for p in parts]) if parts else
                      np.empty(0, int if k == 0 else float) for k in range(3))
@@ -548,8 +552,9 @@ def _layout_quantities(geoms, spacing, settings, with_lines):
                                                 settings, select_size)
     cols["pipe_beyond_sizes_m"] = beyond
     cols["outlet_flow_l_s"] = flow * 1000.0
+    cols["bearing_deg"][cols["laterals"] == 0] = np.nan     # no lateral, no direction
     for i in np.flatnonzero(todo & (cols["laterals"] == 0) & (notes == "")):
-        notes[i] = "no lateral fits inside the setbacks at this spacing"
+        notes[i] = "no lateral fits in the field at this spacing"
     for i in np.flatnonzero(cols["unconnected_length_m"] > 0):
         notes[i] = _join(notes[i], f"{cols['unconnected_length_m'][i]:.0f} m of lateral "
                                    "cannot reach the main (needs a sub-main)")
@@ -562,6 +567,28 @@ def _layout_quantities(geoms, spacing, settings, with_lines):
                            np.concatenate(g) if g else np.empty(0, object),
                            np.concatenate(length) if length else np.empty(0))
     return cols, lat_by, main_by, series, notes, out_lines
+
+
+def _layout_group(layout_fields, geoms, options):
+    """``layout_fields`` for fields sharing one spacing.
+
+    ``layout_fields`` refuses a call in which the spacing is wider than every
+    field, while a narrow field among wider ones is simply laid out; so that a
+    field's result never depends on its neighbours in the call, a refused call
+    is repeated with one wide square added after the fields (its results are
+    not used: callers keep the first ``len(geoms)`` fields).
+    """
+    import shapely
+
+    try:
+        return layout_fields(geoms, options)
+    except InputError:
+        side = 10.0 * options.spacing + 4.0 * options.setback + 100.0
+        extra = np.r_[geoms, np.array([shapely.box(0.0, 0.0, side, side)], dtype=object)]
+        try:
+            return layout_fields(extra.astype(object), options)
+        except InputError:
+            return None
 
 
 def _join(a, b):
@@ -963,8 +990,8 @@ def run_batch(inp: BatchInputs, *, progress=None):
              "min_soil_cover": inp.min_soil_cover, "repair": inp.repair}
         if soil["kind"] == "map":
             if soil_tree is not None:
-                g = shapely.from_wkb(wkb[rows])
-                g = g[~shapely.is_missing(g)]
+                g = geoms[rows]
+                g = g[pd_notna(g)]
                 si = np.unique(soil_tree.query(g)[1]) if g.size else np.empty(0, int)
             else:
                 si = np.empty(0, int)

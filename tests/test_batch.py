@@ -69,6 +69,7 @@ FIELDS = {
     "X2": shapely.Polygon([(X0 + 700, Y0 + 1100), (X0 + 1300, Y0 + 1150),
                            (X0 + 1250, Y0 + 1500), (X0 + 750, Y0 + 1450)]),  # irregular
     "OUT": box(300, 2300, 700, 2600),         # north of the soil map
+    "N1": box(100, 1700, 115, 1950),          # 15 m wide: narrower than its spacing
 }
 
 
@@ -170,7 +171,7 @@ def test_fields_outside_the_soil_map_are_reported_not_guessed(run, inputs, tmp_p
     assert np.isnan(got.loc["OUT", "spacing_m"]) and np.isnan(got.loc["OUT", "soil_k_m_d"])
     summary = {row["item"]: row["value"] for row in json.loads(r.stdout)["summary"]}
     assert summary["fields not covered by the soil map"] == 1
-    assert summary["fields designed"] == 4
+    assert summary["fields designed"] == 5
     csv = (tmp_path / "b_summary.csv").read_text()
     assert "fields not covered by the soil map,1," in csv
 
@@ -246,7 +247,9 @@ def _frame(path):
 def test_same_results_with_one_and_two_workers(run, inputs, tmp_path):
     a, b = tmp_path / "a.gpkg", tmp_path / "b.gpkg"
     assert run(*batch_args(inputs, a, "--workers", "1", "--partition-size", "1")).exit_code == 0
-    r = run(*batch_args(inputs, b, "--workers", "2", "--partition-size", "2", "--with-lines"))
+    # all fields in one partition on two workers: the narrow field N1 shares its layout
+    # call with W1 (same spacing) instead of having one of its own
+    r = run(*batch_args(inputs, b, "--workers", "2", "--with-lines"))
     assert r.exit_code == 0, r.output
     fa, fb = _frame(a), _frame(b)
     assert list(fa["field_id"]) == list(FIELDS)                  # input order

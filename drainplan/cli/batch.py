@@ -29,12 +29,12 @@ from .options import FRACTION
               help="Soil-map polygon layer; each field gets the area-weighted values of "
                    "the polygons it overlaps (geometric mean for K).")
 @click.option("--soil-layer", help="Layer of the soil-map file.")
-@click.option("--soil-k-column", help="Column holding K (in the soil map, or in the fields "
-                                      "file without --soil); default 'k' if present.")
+@click.option("--soil-k-column", help="Column holding K: in the soil map (default 'k'), or "
+                                      "without --soil in the fields file itself.")
 @click.option("--soil-barrier-column", help="Column holding the barrier depth below the "
-                                            "surface; default 'barrier_depth' if present.")
-@click.option("--soil-porosity-column", help="Column holding the drainable porosity; "
-                                             "default 'drainable_porosity' if present.")
+                                            "surface (soil-map default 'barrier_depth').")
+@click.option("--soil-porosity-column", help="Column holding the drainable porosity "
+                                             "(soil-map default 'drainable_porosity').")
 @click.option("--soil-units", help="Units of the soil columns, e.g. 'k=in/h,barrier=ft,"
                                    "porosity=%' (default m/d, m and fraction, unless the "
                                    "column name ends in a unit: k_in_h, barrier_cm).")
