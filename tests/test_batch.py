@@ -351,3 +351,20 @@ def test_resume_refuses_other_inputs(run, inputs, tmp_path):
     assert r.exit_code == 2 and "--resume" in r.output
     r = run(*batch_args(inputs, out, "--workers", "1", "--overwrite"))
     assert r.exit_code == 0 and not parts.exists()
+
+
+def test_progress_on_stderr_and_quiet(inputs, tmp_path):
+    from click.testing import CliRunner
+
+    from drainplan.cli import cli
+
+    runner = CliRunner()
+    r = runner.invoke(cli, [str(a) for a in batch_args(
+        inputs, tmp_path / "a.gpkg", "--workers", "1", "--partition-size", "2")])
+    assert r.exit_code == 0, r.output
+    n = len(FIELDS)
+    assert f"fields {n} / {n} (100 %)" in r.stderr and "fields/s" in r.stderr
+    assert "fields/s" not in r.stdout
+    r = runner.invoke(cli, ["-q", *[str(a) for a in batch_args(
+        inputs, tmp_path / "b.gpkg", "--workers", "1")]])
+    assert r.exit_code == 0 and r.stderr == ""
