@@ -27,6 +27,8 @@ _CORE = (
     "glover_dumm_profile",
     "glover_dumm_spacing", "reaction_factor",
     "drain_radius_table", "effective_radius", "ditch_radius", "square_envelope_radius",
+    "SimulationResult", "boussinesq_simulation", "de_zeeuw_hellinga_simulation",
+    "de_zeeuw_hellinga_reaction_factor", "et_reduction_factor", "sew30",
 )
 
 __all__ = ["__version__", "DrainplanError", "InputError", "GeometryError",

@@ -52,6 +52,9 @@ PROPOSAL_KEYS = {"name": "text", "lateral_spacing": "length", "depth": "length",
                  "envelope": "radius", "lines": "path", "layer": "text", "crs": "text",
                  "contractor": "text", "notes": "text"}
 
+#: A lateral end (or a main end) this close to a main joins it [m].
+JOIN_TOLERANCE = 3.0
+
 EDGE_TREATMENT = (
     "Local spacing is the perpendicular distance to the nearest roughly parallel lateral "
     "of the same field, measured every 5 m along each lateral (median). An edge lateral "
@@ -359,6 +362,12 @@ def _r(v, nd=3):
     return round(v, nd) if math.isfinite(v) else None
 
 
+def _sig(v, digits=6):
+    """Rounded to ``digits`` significant figures (None for NaN)."""
+    v = float(v)
+    return float(f"{v:.{digits}g}") if math.isfinite(v) else None
+
+
 def verdict_text(name, meets, proposed_txt, required_txt, margin, *, at_most):
     """'spacing 21.3 m, allowed 24.6 m: meets with 13 % to spare' style sentences."""
     rel = "allowed" if at_most else "needs"
@@ -553,22 +562,30 @@ def check_proposal(project, proposal, *, units=None, progress=None):
         def elev(xy):
             return np.asarray(surface(np.asarray(xy, float)), float)
     net = join_network(shapely.force_2d(lat_g), shapely.force_2d(main_g),
-                       outlet=outlet_pts, elevation_of=elev)
+                       tolerance=JOIN_TOLERANCE, outlet=outlet_pts, elevation_of=elev)
     if source == "numbers" and main_g.size:
         # layout pieces reach their main through connectors: join by field
         hint_main = {h: i for i, h in enumerate(main_rows["field_hint"])}
         for i, h in enumerate(lat_rows["field_hint"]):
             if net.lateral_main[i] < 0 and h in hint_main:
                 net.lateral_main[i] = hint_main[h]
-    if elev is not None:
-        # a lateral that reaches no main drains to its lower end
-        free = np.flatnonzero(net.lateral_main < 0)
-        if free.size:
-            za = elev(net.lateral_junction[free])
-            zb = elev(net.lateral_upstream[free])
-            swap = free[zb < za]
-            net.lateral_junction[swap], net.lateral_upstream[swap] = (
-                net.lateral_upstream[swap].copy(), net.lateral_junction[swap].copy())
+    free = np.flatnonzero(net.lateral_main < 0)
+    if free.size and (has_z or elev is not None):
+        # a lateral that reaches no main drains to its lower end (its Z values, or the
+        # ground)
+        za, zb = np.full(free.size, np.nan), np.full(free.size, np.nan)
+        for k, i in enumerate(free):
+            g = lat_g[i]
+            if has_z and shapely.has_z(g):
+                c = shapely.get_coordinates(g, include_z=True)
+                first = np.hypot(*(c[0, :2] - net.lateral_junction[i])) < 1e-6
+                za[k], zb[k] = (c[0, 2], c[-1, 2]) if first else (c[-1, 2], c[0, 2])
+            elif elev is not None:
+                za[k], zb[k] = elev(np.array([net.lateral_junction[i],
+                                              net.lateral_upstream[i]]))
+        swap = free[zb < za]
+        net.lateral_junction[swap], net.lateral_upstream[swap] = (
+            net.lateral_upstream[swap].copy(), net.lateral_junction[swap].copy())
     notes += net.notes
 
     # --- ids
@@ -714,8 +731,8 @@ def check_proposal(project, proposal, *, units=None, progress=None):
     main_flow = coef * main_area / 86400.0
     unjoined = int(((net.lateral_main < 0) & inside).sum()) if nm else 0
     if nm and unjoined:
-        notes.append(f"{unjoined} lateral(s) end more than 3 m from every main: their flow "
-                     "is not counted in any main")
+        notes.append(f"{unjoined} lateral(s) end more than {JOIN_TOLERANCE:g} m from every "
+                     "main: they drain nowhere and their flow is not counted in any main")
     if nm == 0:
         notes.append("the proposal draws no main: main sizes not checked")
 
@@ -813,8 +830,8 @@ def check_proposal(project, proposal, *, units=None, progress=None):
             fail_lists[i].append(name)
         meets = bool(passed[idx].all())
         pipe_entries.append({
-            "name": name, "kind": kind, "statement": None, "required": _r(need[w], 6),
-            "proposed": _r(vals[w], 6), "unit": unit, "margin_pct": _r(marg[w], 1),
+            "name": name, "kind": kind, "statement": None, "required": _sig(need[w]),
+            "proposed": _sig(vals[w]), "unit": unit, "margin_pct": _r(marg[w], 1),
             "meets": meets, "where": ids[w], "failing": int((~passed[idx]).sum()),
             "checked": int(idx.size), "text": label_fn(w, bool(passed[w]), marg[w]),
             "source": source})
@@ -890,6 +907,17 @@ def check_proposal(project, proposal, *, units=None, progress=None):
                       show(vmax, "velocity", u, 2), m, at_most=True),
                   "project maximum velocity (pipes.max_velocity)", mask=main_grade_checked,
                   unit="m/s")
+    if nm:
+        gap = shapely.distance(shapely.points(net.lateral_junction),
+                               shapely.union_all(shapely.force_2d(main_g)))
+        gap = np.where(net.lateral_main >= 0, 0.0, gap)
+        add_check("lateral joins a main", "network", gap, JOIN_TOLERANCE, lat_ids, True,
+                  lat_fail, lambda w, ok, m: (
+                      f"lateral end {show(gap[w], 'length', u, 1)} from the nearest main, "
+                      f"allowed {show(JOIN_TOLERANCE, 'length', u, 1)}: "
+                      + ("meets" if ok else "fails (drains nowhere: add a sub-main)")),
+                  "drawn network: a lateral end within 3 m of a main joins it",
+                  mask=inside, unit="m")
     criteria += pipe_entries
     not_checked = []
     if all(s is None for s in lat_size):
@@ -938,7 +966,7 @@ def check_proposal(project, proposal, *, units=None, progress=None):
             "size": lat_size[i][0] if lat_size[i] else None,
             "flow_l_s": _r(lat_flow[i] * 1000, 3),
             "capacity_l_s": _r(lat_cap[i] * 1000, 3),
-            "grade": _r(lat_grade[i], 5) if np.isfinite(lat_grade[i]) else None,
+            "grade": _sig(lat_grade[i]) if np.isfinite(lat_grade[i]) else None,
             "main_id": main_ids[net.lateral_main[i]] if net.lateral_main[i] >= 0 else None,
             **{f"allowed_{k}_m": _r(v[0][i]) for k, v in lateral_checks.items()},
             "meets": bool(lat_meets[i]), "fails": sorted(set(lat_fail[i])),
@@ -949,7 +977,7 @@ def check_proposal(project, proposal, *, units=None, progress=None):
             "main_id": main_ids[i], "size": main_size[i][0] if main_size[i] else None,
             "length_m": _r(main_len[i], 1), "drained_area_ha": _r(main_area[i] / 1e4, 4),
             "flow_l_s": _r(main_flow[i] * 1000, 3), "capacity_l_s": _r(main_cap[i] * 1000, 3),
-            "grade": _r(main_grade[i], 5) if np.isfinite(main_grade[i]) else None,
+            "grade": _sig(main_grade[i]) if np.isfinite(main_grade[i]) else None,
             "discharges_to": main_ids[net.main_downstream[i]] if net.main_downstream[i] >= 0
             else "outlet",
             "meets": not bad_main[i], "fails": sorted(set(main_fail[i]))})

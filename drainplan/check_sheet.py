@@ -12,9 +12,6 @@ from __future__ import annotations
 
 import io
 import json
-import os
-import shutil
-import tempfile
 from pathlib import Path
 
 __all__ = ["compliance_map", "build_check_sheet", "write_check_outputs", "CHECK_FILES"]
@@ -139,19 +136,24 @@ def build_check_sheet(summary, map_png, path, *, units="metric", paper="A4", cau
                    "small"))
     bad = [x for x in s["laterals"] if not x["meets"]]
     if bad:
-        story.append(P(f"Failing laterals ({len(bad)}; place in {_esc(s['work_crs'])})", "h"))
-        rows = [["Lateral", "Field", "Local spacing", "Depth", "Fails", "Near (x, y)"]]
-        for x in bad[:60]:
-            rows.append([x["lateral_id"], x["field_id"] or "–",
-                         show(x["local_spacing_m"], "spacing", units, 1),
-                         show(x["depth_m"], "length", units, 2),
-                         P(_esc(", ".join(x["fails"])), "cell"),
-                         f"{x['x']:.0f}, {x['y']:.0f}"])
-        if len(bad) > 60:
-            rows.append([f"… {len(bad) - 60} more in check.json and check.gpkg", "", "", "",
-                         "", ""])
-        story.append(_table(rows, widths=[26 * mm, 16 * mm, 24 * mm, 18 * mm,
-                                          width - 124 * mm, 40 * mm], font_size=7))
+        story.append(P(f"Failing laterals: {len(bad)} of {s['lateral_count']} (grouped by "
+                       f"field and reason; place in {_esc(s['work_crs'])}; each lateral in "
+                       "check.json and check.gpkg)", "h"))
+        groups = {}
+        for x in bad:
+            groups.setdefault((x["field_id"] or "–", tuple(x["fails"])), []).append(x)
+        rows = [["Field", "Laterals", "Count", "Local spacing", "Fails", "First near (x, y)"]]
+        for (fid, fails), xs in groups.items():
+            sp = [x["local_spacing_m"] for x in xs if x["local_spacing_m"] is not None]
+            spacing = (show(min(sp), "spacing", units, 1) if sp and min(sp) == max(sp) else
+                       f"{show(min(sp), 'spacing', units, 1)} – "
+                       f"{show(max(sp), 'spacing', units, 1)}" if sp else "–")
+            ids = xs[0]["lateral_id"] + (f" … {xs[-1]['lateral_id']}" if len(xs) > 1 else "")
+            rows.append([fid, P(_esc(ids), "cell"), str(len(xs)), spacing,
+                         P(_esc(", ".join(fails)), "cell"),
+                         f"{xs[0]['x']:.0f}, {xs[0]['y']:.0f}"])
+        story.append(_table(rows, widths=[16 * mm, 40 * mm, 14 * mm, 30 * mm,
+                                          width - 136 * mm, 36 * mm], font_size=7))
     bad_m = [m for m in s["mains"] if not m["meets"]]
     if bad_m:
         story.append(P("Mains", "h"))
@@ -199,18 +201,9 @@ def write_check_outputs(result, outdir, *, overwrite=False, units="metric", pape
     """Write check_sheet.pdf, check.gpkg (proposal lines with verdicts, strips, fields),
     check.json and the map PNG into ``outdir``, all or nothing. Returns the paths."""
     from .gisio import write_layers
-    from .outputs import _clean, check_output_folder
-    from .errors import InputError
+    from .outputs import _clean, write_output_folder
 
-    out = check_output_folder(outdir, overwrite=overwrite)
-    parent = out.resolve().parent
-    if not parent.exists():
-        raise InputError(f"folder {parent} does not exist", param="output")
-    tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.", dir=parent))
-    umask = os.umask(0)
-    os.umask(umask)
-    os.chmod(tmp, 0o777 & ~umask)
-    try:
+    def write_files(tmp):
         png = _map_png(result)
         build_check_sheet(result.summary, png, str(tmp / "check_sheet.pdf"), units=units,
                           paper=paper)
@@ -223,15 +216,6 @@ def write_check_outputs(result, outdir, *, overwrite=False, units="metric", pape
             json.dumps(_clean(result.summary), indent=2, sort_keys=True) + "\n",
             encoding="utf-8")
         (tmp / "check_map.png").write_bytes(png)
-        if out.exists():
-            backup = Path(tempfile.mkdtemp(prefix=f".{out.name}.old.", dir=parent))
-            os.rmdir(backup)
-            os.replace(out, backup)
-            os.replace(tmp, out)
-            shutil.rmtree(backup, ignore_errors=True)
-        else:
-            os.replace(tmp, out)
-    except BaseException:
-        shutil.rmtree(tmp, ignore_errors=True)
-        raise
-    return [out / name for name in CHECK_FILES]
+
+    # the same folder rules as a design: only drainplan's own files are replaced
+    return write_output_folder(outdir, write_files, names=CHECK_FILES, overwrite=overwrite)

@@ -14,7 +14,8 @@ __all__ = ["plan_map", "save_figure"]
 _STYLE = {
     "field_edge": "#3b3b3b", "field_fill": "#f4f1e8", "lateral": "#2a6fb0",
     "connector": "#8a8a8a", "main": "#1b1b1b", "outlet": "#c0392b",
-    "exclusion": "#b9b9b9", "unconnected": "#d98c1a",
+    "exclusion": "#b9b9b9", "unconnected": "#d98c1a", "submain": "#5b3a8c",
+    "trunk": "#0b6e4f",
 }
 
 
@@ -62,8 +63,11 @@ def plan_map(layers, *, ax=None, title=None):
         handles.append(Patch(facecolor=s["exclusion"], label="exclusion (dashed: setback)"))
     for name, color, lw, label in (("laterals", s["lateral"], 0.8, "lateral"),
                                    ("connectors", s["connector"], 0.8, "connector (solid pipe)"),
-                                   ("unconnected", s["unconnected"], 1.0, "needs sub-main"),
-                                   ("mains", s["main"], 2.2, "collector main")):
+                                   ("unconnected", s["unconnected"], 1.0,
+                                    "unconnected (see reason)"),
+                                   ("submains", s["submain"], 1.4, "sub-main (solid pipe)"),
+                                   ("mains", s["main"], 2.2, "collector main"),
+                                   ("trunk", s["trunk"], 3.0, "trunk main to the outlet")):
         g = layers.get(name)
         if g is not None and len(g):
             g.plot(ax=ax, color=color, linewidth=lw)
@@ -81,6 +85,11 @@ def plan_map(layers, *, ax=None, title=None):
     ax.set_aspect("equal")
     ax.set_axis_off()
     x0, y0, x1, y1 = fld.total_bounds
+    for name in ("outlets", "trunk"):      # the outlet may lie beyond the fields
+        g = layers.get(name)
+        if g is not None and len(g):
+            b = g.total_bounds
+            x0, y0, x1, y1 = min(x0, b[0]), min(y0, b[1]), max(x1, b[2]), max(y1, b[3])
     span = max(x1 - x0, y1 - y0)
     pad = 0.06 * span
     ax.set_xlim(x0 - pad, x1 + pad)
@@ -270,6 +279,131 @@ def spacing_against_k(rows, *, ax=None, units="metric", title=None, k_label=None
     ax.set_xlabel(k_label or f"hydraulic conductivity K ({ku})")
     ax.set_ylabel(f"drain spacing ({lu})")
     ax.grid(True, which="both", color="#dddddd", linewidth=0.5)
+    if title:
+        ax.set_title(title, fontsize=10)
+    return ax
+
+
+# ---- season simulation figures -------------------------------------------------------
+
+def simulated_water_table(dates, depths, *, ax=None, units="metric", drain_depth=None,
+                          title=None):
+    """Midway water-table depth over a period for a few spacings.
+
+    Parameters
+    ----------
+    dates : numpy.ndarray of datetime64[D]
+    depths : dict of float -> numpy.ndarray
+        Spacing [m] -> daily midway water-table depth below the surface [m].
+    drain_depth : float, optional
+        Drawn as a line [m].
+    """
+    import matplotlib.pyplot as plt
+
+    from .units import display_unit, to_display
+
+    if ax is None:
+        _, ax = plt.subplots(figsize=(8, 3))
+    lu = display_unit("length", units)
+    colors = ("#1f5f99", "#2a9d8f", "#c26a1a", "#7a3b8f")
+    t = dates.astype("datetime64[D]").astype("O")
+    for (L, z), color in zip(sorted(depths.items()), colors):
+        ax.plot(t, to_display(z, "length", units), color=color, linewidth=1.1,
+                label=f"L = {to_display(L, 'spacing', units):.0f} {display_unit('spacing', units)}")
+    ax.axhline(to_display(0.30, "length", units), color="#c0392b", linestyle="--",
+               linewidth=0.8, label="30 cm (SEW30)")
+    if drain_depth is not None:
+        ax.axhline(to_display(drain_depth, "length", units), color="#555555", linestyle=":",
+                   linewidth=0.8, label="drain level")
+        ax.set_ylim(to_display(drain_depth * 1.05, "length", units), 0.0)
+    else:
+        ax.invert_yaxis()
+    ax.set_ylabel(f"midway water-table depth ({lu})")
+    ax.grid(True, color="#dddddd", linewidth=0.5)
+    ax.legend(fontsize=7, frameon=False, loc="upper left", bbox_to_anchor=(1.0, 1.0))
+    ax.figure.autofmt_xdate()
+    if title:
+        ax.set_title(title, fontsize=10)
+    return ax
+
+
+def sew30_against_spacing(spacings, sew30, *, ax=None, units="metric", target=None,
+                          other=None, marks=None, title=None):
+    """SEW30 per season against drain spacing, with the target.
+
+    Parameters
+    ----------
+    spacings : array_like
+        Drain spacings [m].
+    sew30 : array_like
+        SEW30 [cm d] per season (mean or worst year, as labelled by the caller).
+    target : float, optional
+        SEW30 target [cm d].
+    other : (label, array_like), optional
+        The other model's SEW30, drawn dashed.
+    marks : dict of str -> float, optional
+        Spacings to mark with vertical lines (label -> spacing [m]).
+    """
+    import matplotlib.pyplot as plt
+
+    from .units import display_unit, to_display
+
+    if ax is None:
+        _, ax = plt.subplots(figsize=(4, 3))
+    su = display_unit("spacing", units)
+    L = to_display(np.asarray(spacings, float), "spacing", units)
+    ax.plot(L, sew30, marker="o", markersize=3, color="#1f5f99", linewidth=1.4,
+            label="Boussinesq")
+    if other is not None:
+        ax.plot(L, other[1], color="#888888", linestyle="--", linewidth=1.0, label=other[0])
+    if target is not None:
+        ax.axhline(target, color="#c0392b", linestyle="--", linewidth=0.9,
+                   label=f"target {target:g} cm·d")
+    for (label, value), style in zip((marks or {}).items(), (":", "-.", "--")):
+        if value is not None:
+            ax.axvline(to_display(value, "spacing", units), color="#444444", linestyle=style,
+                       linewidth=0.9, label=label)
+    ax.set_xlabel(f"drain spacing ({su})")
+    ax.set_ylabel("SEW30 per season (cm·d)")
+    ax.grid(True, color="#dddddd", linewidth=0.5)
+    ax.legend(fontsize=7, frameon=False)
+    if title:
+        ax.set_title(title, fontsize=10)
+    return ax
+
+
+def drain_exceedance(discharges, *, ax=None, units="metric", coefficient=None, title=None):
+    """Exceedance curve of daily drain discharge, with the pipe drainage coefficient.
+
+    Parameters
+    ----------
+    discharges : dict of str -> numpy.ndarray
+        Label -> daily drain discharge [m/d].
+    coefficient : float, optional
+        Pipe drainage coefficient [m/d], drawn as a line.
+    """
+    import matplotlib.pyplot as plt
+
+    from .units import display_unit, to_display
+
+    if ax is None:
+        _, ax = plt.subplots(figsize=(4, 3))
+    qu = display_unit("recharge", units)
+    colors = ("#1f5f99", "#2a9d8f", "#c26a1a", "#7a3b8f")
+    for (label, q), color in zip(discharges.items(), colors):
+        qs = np.sort(np.asarray(q, float))[::-1]
+        frac = 100.0 * np.arange(1, qs.size + 1) / qs.size
+        ax.plot(frac, to_display(qs, "recharge", units), color=color, linewidth=1.2,
+                label=label)
+    if coefficient is not None:
+        ax.axhline(to_display(coefficient, "recharge", units), color="#c0392b",
+                   linestyle="--", linewidth=0.9, label="pipe drainage coefficient")
+    ax.set_xscale("log")
+    ax.set_xlim(100.0 / max(len(q) for q in discharges.values()), 100.0)
+    ax.set_xlabel("% of days exceeded")
+    ax.set_ylabel(f"drain discharge ({qu})")
+    ax.grid(True, which="both", color="#dddddd", linewidth=0.5)
+    ax.legend(fontsize=7, frameon=False)
     if title:
         ax.set_title(title, fontsize=10)
     return ax

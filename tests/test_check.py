@@ -282,3 +282,105 @@ def test_ernst_geometry_factor_range(run):
              "--water-table-depth", "0.2", "--geometry-factor", "2", "--json")
     assert ok.exit_code == 0
     assert json.loads(ok.stdout)["details"]["head_loss_radial_m"] > 0
+
+
+# ---- outputs, elevations and geometry details
+
+def test_output_folder(run, tmp_path):
+    import pyogrio
+
+    allowed = _allowed()
+    xs = list(np.arange(10.0, 300.0, 20.0))
+    assert 20.0 < allowed
+    proj = _project(tmp_path)
+    prop = _lines_file(tmp_path, xs, lateral_size="4 in", main_size="10 in")
+    out = tmp_path / "chk"
+    r = run("check", proj, "--proposal", prop, "-o", out)
+    assert r.exit_code == 0, r.output
+    assert (out / "check_sheet.pdf").read_bytes()[:5] == b"%PDF-"
+    layers = {row[0] for row in pyogrio.list_layers(out / "check.gpkg")}
+    assert {"proposal_laterals", "proposal_mains", "drained_strips", "field"} <= layers
+    lat = gpd.read_file(out / "check.gpkg", layer="proposal_laterals")
+    assert set(lat["verdict"]) <= {"meets", "fails"} and len(lat) == len(xs)
+    first = json.loads((out / "check.json").read_text())
+    assert first["verdict"] == "meets"
+    # same input, same files; an existing folder is refused without --overwrite
+    r = run("check", proj, "--proposal", prop, "-o", out)
+    assert r.exit_code == 2 and "--overwrite" in r.stderr
+    pdf = (out / "check_sheet.pdf").read_bytes()
+    r = run("check", proj, "--proposal", prop, "-o", out, "--overwrite")
+    assert r.exit_code == 0
+    assert (out / "check_sheet.pdf").read_bytes() == pdf
+    assert json.loads((out / "check.json").read_text()) == first
+
+
+def test_grades_from_surveyed_inverts(run, tmp_path):
+    """Z values of the drawn lines are pipe inverts: grade = fall / length."""
+    proj = _project(tmp_path)
+    for fall, meets in ((0.05, False), (0.40, True)):
+        geoms = [shapely.LineString([(X0 + x, Y0 + 195, 100.0 + fall), (X0 + x, Y0 + 3, 100.0)])
+                 for x in np.arange(10.0, 300.0, 20.0)]
+        gpd.GeoDataFrame({"kind": ["lateral"] * len(geoms)}, geometry=geoms, crs=CRS).to_file(
+            tmp_path / "z.gpkg", driver="GPKG")
+        out = json.loads(run("check", proj, "--proposal", tmp_path / "z.gpkg", "--json").stdout)
+        g = next(c for c in out["criteria"] if c["name"] == "lateral minimum grade")
+        assert g["proposed"] == pytest.approx(fall / 192.0, rel=1e-3)
+        assert g["required"] == pytest.approx(0.001)          # project default 0.1 %
+        assert g["meets"] is meets
+        assert all(x["grade"] == pytest.approx(fall / 192.0, rel=1e-3) for x in out["laterals"])
+
+
+def test_measure_laterals_edges_and_exclusions():
+    from drainplan.geometry.proposal import measure_laterals
+
+    field = np.array([shapely.box(0, 0, 100, 100)])
+    xs = [10.0, 30.0, 50.0, 90.0]
+    lats = np.array([shapely.LineString([(x, 5), (x, 95)]) for x in xs])
+    g = measure_laterals(lats, field)
+    # edge laterals mirror their one neighbour; the lateral at 50 m has 20 m and 40 m sides
+    assert g.local_spacing.tolist() == pytest.approx([20.0, 20.0, 40.0, 40.0])
+    assert g.edge.tolist() == [True, False, False, True]
+    assert g.edge_left[-1] == pytest.approx(10.0) or g.edge_right[-1] == pytest.approx(10.0)
+    assert g.strip_area == pytest.approx([20 * 90, 20 * 90, 30 * 90, 30 * 90])
+    # an excluded strip between x = 60 and 80 m: the laterals either side are edges
+    region = np.array([field[0].difference(shapely.box(60, 0, 80, 100))])
+    g2 = measure_laterals(lats, field, regions=region)
+    assert np.isnan(g2.spacing_left[2]) or np.isnan(g2.spacing_right[2])
+    assert g2.local_spacing[2] == pytest.approx(20.0)
+    assert g2.local_spacing[3] == pytest.approx(20.0)          # alone: twice 10 m to the edge
+    # a cross lateral is no neighbour
+    cross = np.append(lats, shapely.LineString([(0, 50), (100, 50)]))
+    g3 = measure_laterals(cross, field)
+    assert g3.local_spacing[:4].tolist() == pytest.approx([20.0, 20.0, 40.0, 40.0])
+
+
+def test_us_units_text(run, tmp_path):
+    proj = _project(tmp_path)
+    prop = _lines_file(tmp_path, list(np.arange(10.0, 300.0, 20.0)), lateral_size="4 in",
+                       main_size="6 in")
+    text = run("check", proj, "--proposal", prop, "--units", "us").stdout
+    assert "ft" in text and "ft³/s" in text and " L/s" not in text
+
+
+@pytest.mark.filterwarnings("ignore")
+def test_local_spacing_is_rotation_invariant():
+    """Parallel laterals at spacing s in a field turned by any bearing: every interior
+    lateral measures s (geometry checked against the construction itself)."""
+    from hypothesis import given, settings
+    from hypothesis import strategies as st
+
+    from drainplan.geometry.proposal import measure_laterals
+
+    @settings(max_examples=25, deadline=None)
+    @given(st.floats(8.0, 40.0), st.floats(0.0, 180.0))
+    def check(s, bearing):
+        n = 9
+        field = shapely.box(-10, -10, (n - 1) * s + 10, 200)
+        lats = [shapely.LineString([(i * s, 0), (i * s, 190)]) for i in range(n)]
+        rot = lambda g: shapely.affinity.rotate(g, bearing, origin=(0, 0))  # noqa: E731
+        g = measure_laterals(np.array([rot(x) for x in lats]), np.array([rot(field)]))
+        assert g.local_spacing == pytest.approx(np.full(n, s), rel=1e-6)
+        assert g.strip_area[1:-1] == pytest.approx(np.full(n - 2, s * 190), rel=1e-6)
+
+    import shapely.affinity  # noqa: F401
+    check()

@@ -116,11 +116,29 @@ BAD = {
     "missing z": (lambda p: ["--survey", _survey_missing_z(p), "--survey-crs", "EPSG:4326"],
                   "has no z", 2),
     "negative coefficient": (lambda p: ["--coefficient", "-3 mm/d"], "coefficient", 2),
-    "no size meets the flow": (lambda p: ["--sizes", _small_sizes(p)], "carries", 1),
     "missing survey file": (lambda p: ["--survey", p / "none.csv"], "not found", 2),
     "survey and dem": (lambda p: ["--survey", _survey_far(p), "--dem", p / "x.tif"],
                        "not both", 2),
 }
+
+
+def test_reach_beyond_the_size_table_does_not_stop_the_run(run, layout_gpkg, tmp_path):
+    # one table of a single 50 mm size: most reaches need more; the run finishes, marks
+    # each such reach with the fix, and sizes the rest
+    out = tmp_path / "schedule.csv"
+    r = _pipes(run, layout_gpkg, out, "--sizes", _small_sizes(tmp_path), "--json")
+    assert r.exit_code == 0, r.output
+    data = json.loads(r.stdout)
+    big = [x for x in data["reaches"] if x["size"].startswith("larger than")]
+    ok = [x for x in data["reaches"] if x["size"] == "50 mm"]
+    assert big and ok
+    assert all(x["capacity_l_s"] >= x["flow_l_s"] for x in ok)
+    fixes = [v for v in data["violations"] if v["kind"] == "too large"]
+    assert len(fixes) == len(big)
+    assert all("parallel" in v["fix"] and "second outlet" in v["fix"] for v in fixes)
+    assert any("beyond the largest pipe" in p for p in data["problems"])
+    rows = list(csv.DictReader(out.open()))
+    assert sum(row["size"].startswith("larger than") for row in rows) == len(big)
 
 
 @pytest.mark.parametrize("case", list(BAD))

@@ -5,7 +5,6 @@ import pytest
 import shapely
 from numpy.testing import assert_allclose
 
-from drainplan.errors import DrainplanError
 from drainplan.network.design import LateralRun, PipeOptions, design_pipes
 
 SPACING = 20.0
@@ -78,17 +77,23 @@ def test_valley_adverse_grade_and_impossible_limits():
     d = design_pipes(runs, mains, PipeOptions(coefficient=0.01, max_depth=2.0),
                      surface=valley)
     lat = [r for r in d.reaches if r["kind"] == "lateral"]
-    # with constant depth the grade would be adverse; a constant-grade line cannot stay
-    # within 2 m depth over a 1.2 m rise + 0.3 m fall: reported, with place and fix
+    # with constant depth the grade would be adverse; laid at the minimum grade from its
+    # upstream end (1.0 m deep) the lateral ends 1.0 + 1.2 m rise + 0.3 m fall = 2.5 m
+    # deep at the main: reported once per lateral, at its deepest place, with the fix
     probs = [v for v in d.violations if v["reach_id"] == lat[0]["reach_id"]]
-    assert probs and "constant grade" in probs[0]["problem"] and probs[0]["fix"]
+    assert len(probs) == 1 and "deep" in probs[0]["problem"] and probs[0]["fix"]
+    assert probs[0]["chainage_m"] == pytest.approx(300.0)
+    assert_allclose(lat[0]["invert_up_m"] - lat[0]["invert_down_m"], 0.3, atol=1e-9)
     assert all(r["grade"] >= 0.001 - 1e-12 for r in lat)
+    # the cause is named once: the main is on the high side of the field
+    high = [v for v in d.violations if v["kind"] == "main on the high side"]
+    assert len(high) == 1 and "--main-side" in high[0]["fix"]
     # a gentle valley is solved by a constant-grade line within the limits
     d2 = design_pipes(runs, mains, PipeOptions(coefficient=0.01, max_depth=3.0),
                       surface=lambda xy: 100.0 - 0.0005 * xy[:, 0])
     lat2 = [r for r in d2.reaches if r["kind"] == "lateral"]
     assert all(abs(r["grade"] - 0.001) < 1e-9 for r in lat2)
-    assert not [v for v in d2.violations if "constant grade" in v["problem"]]
+    assert not [v for v in d2.violations if v["kind"] == "too deep"]
 
 
 def test_outlet_below_ditch_level():
@@ -100,9 +105,14 @@ def test_outlet_below_ditch_level():
 
 
 def test_no_size_large_enough():
+    # 50 m/d is far beyond any drain pipe: every reach is marked with its fix and the
+    # design still finishes (one reach must not stop a run of many fields)
     runs, mains = comb()
-    with pytest.raises(DrainplanError, match="carries"):
-        design_pipes(runs, mains, PipeOptions(coefficient=50.0), surface=tilted)
+    d = design_pipes(runs, mains, PipeOptions(coefficient=50.0), surface=tilted)
+    big = [r for r in d.reaches if r["size"].startswith("larger than")]
+    assert big
+    fixes = [v for v in d.violations if v["kind"] == "too large"]
+    assert len(fixes) == len(big) and "parallel" in fixes[0]["fix"]
 
 
 def test_without_elevations_uses_assumed_grade():

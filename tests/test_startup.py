@@ -26,7 +26,8 @@ def test_help_lists_every_command_with_its_own_short_help():
         command = cli.get_command(None, name)
         assert command.name == name
         assert command.get_short_help_str(200) == short
-        assert f"{name}  " in result.output and short in result.output
+        flat = " ".join(result.output.split())        # long lines wrap at the terminal width
+        assert f"{name}  " in result.output and short in flat
 
 
 def test_unknown_command_is_one_line():

@@ -108,6 +108,9 @@ class Layout:
     dropped_length: np.ndarray
     spacing: float
     notes: list = field(default_factory=list)
+    unconnected_line: np.ndarray = None
+    zones: np.ndarray = None          # per field: exclusion setback zones touching it
+    features: np.ndarray = None       # per field: the exclusion features themselves
 
     def quantities(self, field_area):
         """Per-field quantities (dict of arrays) and totals (dict of floats).
@@ -264,7 +267,7 @@ def _side_is_low(bearing, side, field_geom, outlet):
 
 
 def layout_fields(fields, options, *, exclusions=None, exclusion_setbacks=None,
-                  outlet=None, user_mains=None):
+                  outlet=None, user_mains=None, low_end=None):
     """Lay out laterals and collector mains over fields.
 
     Parameters
@@ -275,8 +278,13 @@ def layout_fields(fields, options, *, exclusions=None, exclusion_setbacks=None,
     exclusions : array_like of shapely geometries, optional
     exclusion_setbacks : array_like, optional
         Setback per exclusion [m].
-    outlet : tuple (x, y), optional
-        Outlet point in the same coordinates; the main drains towards it.
+    outlet : tuple (x, y) or (n, 2) array, optional
+        Outlet point in the same coordinates (one for all fields, or one per
+        field); the main drains towards it.
+    low_end : array of bool, optional
+        Per field, True to put the main at the low-t end of the laterals (-u),
+        False at the high-t end, where ``main_side`` is "auto" (the terrain's
+        choice: the end where the ground is lower).
     user_mains : array_like of LineString or None, optional
         Per field, a main drawn by the user instead of the edge main.
 
@@ -291,6 +299,11 @@ def layout_fields(fields, options, *, exclusions=None, exclusion_setbacks=None,
     """
     fields = np.asarray(fields, dtype=object)
     n = fields.size
+    outlet_all = outlet
+    if outlet is not None and np.ndim(outlet) == 2:
+        outlet_of = lambda f: outlet_all[f]  # noqa: E731
+    else:
+        outlet_of = lambda f: outlet_all  # noqa: E731
     if options.pattern not in ("parallel", "herringbone"):
         raise InputError(f"pattern {options.pattern!r} is unknown; choose parallel or "
                          "herringbone", param="pattern")
@@ -339,7 +352,7 @@ def layout_fields(fields, options, *, exclusions=None, exclusion_setbacks=None,
             # laterals leave the main pointing upstream (away from the outlet), so each
             # joins the main at an angle in the direction of flow
             upstream = -1.0 if _side_is_low(bearing[f], "auto", fields_filled[f],
-                                            outlet) is False else 1.0
+                                            outlet_of(f)) is False else 1.0
             for sign, half in _halves(regions[f], center, bearing[f]):
                 sub_owner.append(f)
                 sub_region.append(half)
@@ -350,7 +363,12 @@ def layout_fields(fields, options, *, exclusions=None, exclusion_setbacks=None,
             if user is not None:
                 mains[f] = user
             else:
-                low = _side_is_low(bearing[f], options.main_side, fields_filled[f], outlet)
+                if low_end is not None and options.main_side == "auto" \
+                        and low_end[f] is not None:
+                    low = bool(low_end[f])
+                else:
+                    low = _side_is_low(bearing[f], options.main_side, fields_filled[f],
+                                       outlet_of(f))
                 mains[f] = _main_chain(insets[f], u_all[f], v_all[f], low)
             sub_owner.append(f)
             sub_region.append(regions[f])
@@ -417,8 +435,8 @@ def layout_fields(fields, options, *, exclusions=None, exclusion_setbacks=None,
             outlets[f] = js[0]
             continue
         ends = np.asarray(mf.coords)[[0, -1]]
-        if outlet is not None:
-            downstream = int(np.argmin(np.hypot(*(ends - np.asarray(outlet)).T)))
+        if outlet_of(f) is not None:
+            downstream = int(np.argmin(np.hypot(*(ends - np.asarray(outlet_of(f))).T)))
         else:
             downstream = 1
         if downstream == 0:
@@ -440,7 +458,9 @@ def layout_fields(fields, options, *, exclusions=None, exclusion_setbacks=None,
         connectors=connectors, connector_field=con_field,
         connector_line=con_line, connector_side=con_run[1], mains=mains, outlets=outlets,
         unconnected=unconnected.geometries(), unconnected_field=sub_owner[unconnected.field],
-        dropped_count=dropped_count, dropped_length=dropped_length, spacing=L, notes=notes)
+        dropped_count=dropped_count, dropped_length=dropped_length, spacing=L, notes=notes,
+        unconnected_line=unconnected.line + line_offset[unconnected.field],
+        zones=zones, features=features)
 
 
 def _connect(pieces, grid, mains, fields, zones, features, cross_setbacks):

@@ -46,7 +46,8 @@ def assign_fields(lines, fields):
     Examples
     --------
     >>> f = np.array([shapely.box(0, 0, 10, 10), shapely.box(10, 0, 20, 10)])
-    >>> ln = np.array([shapely.LineString([(1, 5), (12, 5)]), shapely.LineString([(30, 5), (40, 5)])])
+    >>> ln = np.array([shapely.LineString([(1, 5), (12, 5)]),
+    ...                shapely.LineString([(30, 5), (40, 5)])])
     >>> assign_fields(ln, f).tolist()
     [0, -1]
     """
@@ -129,23 +130,40 @@ def _stations(lines, step):
     return np.concatenate(pts), np.concatenate(nrm), np.concatenate(own)
 
 
-def _ray_hits(P, N, owner, targets, target_ok, reach):
-    """Nearest hit on each side of every station ray: (left distance, right distance)."""
-    rays = shapely.linestrings(np.stack([P - N * reach, P + N * reach], axis=1))
+def _segments(geoms):
+    """Straight segments (a, b, owner index) of line or polygon-boundary geometries."""
+    parts, pidx = shapely.get_parts(geoms, return_index=True)
+    xy, ci = shapely.get_coordinates(parts, return_index=True)
+    same = ci[1:] == ci[:-1]
+    return xy[:-1][same], xy[1:][same], pidx[ci[:-1][same]]
+
+
+def _ray_hits_once(P, N, owner, tree, seg, target_ok, reach):
+    """Signed distances along the normal to the nearest segment hit on each side.
+
+    Solves P + t N = A + u (B - A) for every (ray, segment) pair whose boxes meet:
+    t = ((A - P) x (B - A)) / (N x (B - A)), u = ((A - P) x N) / (N x (B - A)).
+    """
+    a, b, seg_owner = seg
     left = np.full(len(P), np.inf)
     right = np.full(len(P), np.inf)
-    if len(targets) == 0:
-        return left, right
-    tree = shapely.STRtree(targets)
-    ri, ti = tree.query(rays, predicate="intersects")
-    keep = target_ok(owner[ri], ti)
-    ri, ti = ri[keep], ti[keep]
+    boxes = shapely.box(*np.c_[np.minimum(P - N * reach, P + N * reach),
+                               np.maximum(P - N * reach, P + N * reach)].T)
+    ri, si = tree.query(boxes)
+    keep = target_ok(owner[ri], seg_owner[si])
+    ri, si = ri[keep], si[keep]
     if ri.size == 0:
         return left, right
-    hits = shapely.intersection(rays[ri], targets[ti])
-    xy, idx = shapely.get_coordinates(hits, return_index=True)
-    r = ri[idx]
-    t = np.einsum("ij,ij->i", xy - P[r], N[r])
+    d = b[si] - a[si]
+    ap = a[si] - P[ri]
+    n = N[ri]
+    den = n[:, 0] * d[:, 1] - n[:, 1] * d[:, 0]
+    ok = np.abs(den) > 1e-12
+    with np.errstate(divide="ignore", invalid="ignore"):
+        t = (ap[:, 0] * d[:, 1] - ap[:, 1] * d[:, 0]) / den
+        u = (ap[:, 0] * n[:, 1] - ap[:, 1] * n[:, 0]) / den
+    ok &= (u >= -1e-9) & (u <= 1 + 1e-9) & (np.abs(t) <= reach)
+    r, t = ri[ok], t[ok]
     pos = t > 1e-6
     np.minimum.at(left, r[pos], t[pos])
     neg = t < -1e-6
@@ -153,10 +171,39 @@ def _ray_hits(P, N, owner, targets, target_ok, reach):
     return left, right
 
 
+def _ray_hits(P, N, owner, targets, target_ok, reach):
+    """Nearest hit on each side of every station ray: (left distance, right distance).
+
+    Rays start short and only those that found nothing on a side are cast again
+    longer (up to ``reach``), so a dense proposal costs few intersections.
+    """
+    left = np.full(len(P), np.inf)
+    right = np.full(len(P), np.inf)
+    if len(targets) == 0 or len(P) == 0:
+        return left, right
+    seg = _segments(np.asarray(targets, dtype=object))
+    if seg[0].shape[0] == 0:
+        return left, right
+    tree = shapely.STRtree(shapely.linestrings(np.stack([seg[0], seg[1]], axis=1)))
+    todo = np.arange(len(P))
+    r = min(60.0, reach)
+    while todo.size:
+        lf, rt = _ray_hits_once(P[todo], N[todo], owner[todo], tree, seg, target_ok, r)
+        left[todo] = np.minimum(left[todo], lf)
+        right[todo] = np.minimum(right[todo], rt)
+        if r >= reach:
+            break
+        todo = todo[~(np.isfinite(left[todo]) & np.isfinite(right[todo]))]
+        r = min(4.0 * r, reach)
+    return left, right
+
+
 def _side_median(values, owner, n):
+    """Median of the finite values of each owner (owners are sorted)."""
     out = np.full(n, np.nan)
+    cuts = np.searchsorted(owner, np.arange(n + 1))
     for i in range(n):
-        v = values[owner == i]
+        v = values[cuts[i]:cuts[i + 1]]
         v = v[np.isfinite(v)]
         if v.size:
             out[i] = float(np.median(v))

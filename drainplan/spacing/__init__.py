@@ -15,6 +15,8 @@ from .glover_dumm import (FLOW_DEPTHS, INITIAL_SHAPES, glover_dumm_flow_depth,
 from .hooghoudt import (hooghoudt_head, hooghoudt_recharge, hooghoudt_spacing,
                         hooghoudt_water_table)
 from .kirkham import kirkham_f, kirkham_head, kirkham_spacing
+from .reservoir import de_zeeuw_hellinga_reaction_factor, de_zeeuw_hellinga_simulation
+from .simulation import SimulationResult, boussinesq_simulation, et_reduction_factor, sew30
 
 __all__ = [
     "METHODS", "STEADY_METHODS", "SpacingResult", "drain_spacing", "check_spacing",
@@ -29,4 +31,6 @@ __all__ = [
     "glover_dumm_profile",
     "glover_dumm_spacing", "reaction_factor",
     "drain_radius_table", "effective_radius", "ditch_radius", "square_envelope_radius",
+    "SimulationResult", "boussinesq_simulation", "de_zeeuw_hellinga_simulation",
+    "de_zeeuw_hellinga_reaction_factor", "et_reduction_factor", "sew30",
 ]
