@@ -129,6 +129,9 @@ def load_batch_settings(path):
         if "drains" not in raw:
             raise InputError(f"{p.name}: section [drains] is required", param="project")
         out["name"] = out.pop("site", {}).get("name", "")
+        soil = out.get("soil", {})
+        if "layers" in soil and "barrier_depth" not in soil:
+            soil["barrier_depth"] = sum(ly["thickness"] for ly in soil["layers"])
         out.pop("fields", None)
         out.pop("report", None)
     crit = out["criteria"]
