@@ -105,6 +105,80 @@ def run_once(folder, n, engine):
     return t1 - t0, marks[0][0] - t0, marks[-1][0] - marks[0][0], t1 - marks[-1][0], cpu
 
 
+def report(rows, sizes, load_start, load_end):
+    """The README section from measured rows (n, engine, total, pre, mid, post, load, cpu)."""
+    names = {"one": "1 core (`--workers 1`)",
+             "all": f"all {os.cpu_count()} cores (`--workers {os.cpu_count()}`)",
+             "dask": f"local Dask cluster ({os.cpu_count()} worker processes)"}
+    one = [r for r in rows if r[1] == "one"]
+    lines = [
+        "## Many fields at once (`drainplan batch`)",
+        "",
+        f"Measured {time.strftime('%Y-%m-%d')} on {platform.machine()}, {os.cpu_count()} cores, "
+        f"Python {platform.python_version()}, shapely {shapely.__version__} "
+        f"(`python benchmarks/bench_batch.py --sizes {sizes} --write`). The machine was "
+        f"shared with other work: 1-minute load average {load_start:.1f} at the start "
+        f"and {load_end:.1f} at the end on {os.cpu_count()} cores, so every figure is "
+        "slower than on an idle machine and all-core figures gain less than they would.",
+        "",
+        "Invented fields of about 8 ha (jittered grid, 12 m roads), a soil map of one Voronoi "
+        "cell per 25 fields; whole job: read, soil overlay, Hooghoudt spacing, layout "
+        "quantities, pipe sizes, GeoPackage and summary written.",
+        "",
+        "| fields | engine | total (wall) | read + partition | partitions | "
+        "assemble + write | fields/s | CPU time | CPU ms/field | load |",
+        "| --- | --- | --- | --- | --- | --- | --- | --- | --- | --- |",
+    ]
+    for n, e, total, pre, mid, post, load, cpu in rows:
+        lines.append(f"| {n:,} | {names[e]} | {total:.1f} s | {pre:.1f} s | {mid:.1f} s | "
+                     f"{post:.1f} s | {n / total:,.0f} | {cpu:.1f} s | "
+                     f"{cpu / n * 1e3:.2f} | {load:.1f} |")
+    lines += ["", "CPU time: this process and its worker processes (user + system); on a "
+              "shared machine it is a steadier measure of the work than the wall-clock "
+              "time. The Dask rows leave out the CPU time of the cluster's worker processes "
+              "where the operating system has not yet accounted for them."]
+    if len(one) > 1:
+        per = ", ".join(f"{r[7] / r[0] * 1e3:.2f}" for r in one)
+        lines += ["", f"**Growth with the number of fields.** CPU time per field on one core "
+                  f"at {', '.join(f'{r[0]:,}' for r in one)} fields: {per} ms, about "
+                  "constant: the time grows linearly with the number of fields (each "
+                  "partition's work depends on its own fields only). The wall-clock "
+                  "comparison between engines follows the machine's load at the moment of "
+                  "each run (see the load column) more than the engines themselves."]
+    if one:
+        n, _, total, pre, mid, post, _, cpu = one[-1]
+        # core-seconds per field in the partitions: the CPU time of the one-core run
+        # (in-process, so exact) split in the proportion of its wall-clock phases, and,
+        # as an upper bound, the wall-clock time of the partitions on this loaded machine
+        share = mid / total if total > 0 else 1.0
+        per_cpu = cpu * share / n
+        per_wall = mid / n
+        serial = (pre + post) / n
+        big = 5_000_000
+
+        def cores(per):
+            return int(np.ceil(big * per / 3600.0 * 1.25))
+
+        lines += [
+            "",
+            f"**5,000,000 fields in an hour.** Per-field cost on one core, from the "
+            f"largest run ({n:,} fields of about 8 ha): "
+            f"{per_cpu * 1e3:.2f} ms of CPU time in the partitions ({per_wall * 1e3:.2f} ms "
+            "of wall-clock time on this shared machine, an upper bound). 5,000,000 fields "
+            f"are then {big * per_cpu / 3600:.1f} to {big * per_wall / 3600:.1f} core-hours, "
+            f"so {cores(per_cpu)} to {cores(per_wall)} worker cores finish them in an hour "
+            "with a 25 % allowance for scheduling and data transfer; a single machine of "
+            "4 to 8 cores leaves room for larger fields (the cost grows with the number "
+            "of laterals) and a slower network. The compute is not the limit: the client reads every field, cuts "
+            f"the partitions and writes one GeoPackage, {serial * 1e3:.3f} ms per field "
+            f"here ({big * serial / 60:.0f} min for 5,000,000), holding every geometry in "
+            "its memory (several GB at that size). A run of that size is best split into "
+            "regional files of a few hundred thousand fields each, run side by side on "
+            "the same cluster, each with its own `--resume`.",
+        ]
+    return "\n".join(lines) + "\n"
+
+
 def main():
     ap = argparse.ArgumentParser()
     ap.add_argument("--sizes", default="10000,50000,100000")
@@ -133,60 +207,7 @@ def main():
                       f"{n / total:,.0f} fields/s  cpu {cpu:.1f} s  load {load:.1f}",
                       flush=True)
     load_after = os.getloadavg()
-    one = [r for r in rows if r[1] == "one"]
-    lines = [
-        "## Many fields at once (`drainplan batch`)",
-        "",
-        f"Measured {time.strftime('%Y-%m-%d')} on {platform.machine()}, {os.cpu_count()} cores, "
-        f"Python {platform.python_version()}, shapely {shapely.__version__} "
-        f"(`python benchmarks/bench_batch.py --sizes {args.sizes} --write`). The machine was "
-        f"shared with other work: 1-minute load average {load_before[0]:.1f} at the start "
-        f"and {load_after[0]:.1f} at the end on {os.cpu_count()} cores, so every figure is "
-        "slower than on an idle machine and all-core figures gain less than they would.",
-        "",
-        "Invented fields of about 8 ha (jittered grid, 12 m roads), a soil map of one Voronoi "
-        "cell per 25 fields; whole job: read, soil overlay, Hooghoudt spacing, layout "
-        "quantities, pipe sizes, GeoPackage and summary written.",
-        "",
-        "| fields | engine | total (wall) | read + partition | partitions | "
-        "assemble + write | fields/s | CPU time | CPU ms/field | load |",
-        "| --- | --- | --- | --- | --- | --- | --- | --- | --- | --- |",
-    ]
-    for n, e, total, pre, mid, post, load, cpu in rows:
-        lines.append(f"| {n:,} | {names[e]} | {total:.1f} s | {pre:.1f} s | {mid:.1f} s | "
-                     f"{post:.1f} s | {n / total:,.0f} | {cpu:.1f} s | "
-                     f"{cpu / n * 1e3:.2f} | {load:.1f} |")
-    lines += ["", "CPU time: this process and its worker processes (user + system); on a "
-              "shared machine it is a steadier measure of the work than the wall-clock "
-              "time. The Dask rows leave out the CPU time of the cluster's worker processes "
-              "where the operating system has not yet accounted for them."]
-    if one:
-        n, _, total, pre, mid, post, _, cpu = one[-1]
-        # core-seconds per field: CPU time on one core (the wall time of a loaded machine
-        # overstates it), split between the partitions and the client's serial part
-        share = mid / total if total > 0 else 1.0
-        per = cpu * share / n
-        serial = cpu * (1 - share) / n
-        big = 5_000_000
-        cores = big * per / 3600.0
-        lines += [
-            "",
-            f"Per-field cost on one core (largest size, {n:,} fields; CPU time, split in "
-            f"the proportion of the wall-clock phases): {per * 1e3:.2f} ms in the "
-            f"partitions, plus {serial * 1e3:.2f} ms per field of reading, partitioning, "
-            "assembling and writing on the client.",
-            "",
-            f"5,000,000 fields in an hour: the partitions need {big * per / 3600:,.0f} "
-            f"core-hours, so about {int(np.ceil(cores * 1.25)):,} worker cores with a 25 % "
-            "allowance for scheduling and data transfer (for example "
-            f"{int(np.ceil(cores * 1.25 / 16)):,} machines of 16 cores), while the client's "
-            f"serial part alone takes about {big * serial / 60:,.0f} min at the measured "
-            "rate; that part (one process reading and writing the whole GeoPackage) is what "
-            "bounds a run of that size, so such a run should read and write the fields in "
-            "regional files of a few hundred thousand fields each, run side by side on the "
-            "same cluster.",
-        ]
-    text = "\n".join(lines) + "\n"
+    text = report(rows, args.sizes, load_before[0], load_after[0])
     print(text)
     if args.write:
         import sys
