@@ -941,9 +941,10 @@ def run_batch(inp: BatchInputs, *, progress=None):
     if not out.parent.exists():
         raise InputError(f"folder {out.parent} does not exist", param="output")
     parts_dir = _parts_dir(out)
-    for p in (out, summary_path):
-        if p.exists() and not inp.overwrite:
-            raise InputError(f"{p} exists; use --overwrite to replace it", param="output")
+    from .gisio import check_output_target
+
+    check_output_target(out, overwrite=inp.overwrite, param="output")
+    check_output_target(summary_path, overwrite=inp.overwrite, param="summary")
     if parts_dir.exists() and not inp.resume:
         if not inp.overwrite:
             raise InputError(f"an interrupted run left {parts_dir}; use --resume to continue "
@@ -1029,13 +1030,13 @@ def run_batch(inp: BatchInputs, *, progress=None):
     results = [read_batch_part(done[k]) for k in range(len(parts))]
     gdf, line_layers = _assemble(results, src, file_crs, work_crs, n, inp)
     summary = _summary_rows(gdf, inp, n)
-    from .gisio import write_layers
+    from .gisio import layers_writer, write_outputs
 
     layers = {"fields": gdf, **line_layers}
-    write_layers(out, layers, overwrite=inp.overwrite)
-    write_atomic(summary_path, lambda tmp: Path(tmp).write_text(_summary_csv(summary),
-                                                                encoding="utf-8"),
-                 overwrite=True)
+    text = _summary_csv(summary)
+    write_outputs([(out, layers_writer(layers)),
+                   (summary_path, lambda tmp: Path(tmp).write_text(text, encoding="utf-8"),
+                    "summary")], overwrite=inp.overwrite)
     shutil.rmtree(parts_dir, ignore_errors=True)
     return BatchResult(out, summary_path, gdf, summary, len(parts), len(parts) - len(todo),
                        engine.name)

@@ -84,6 +84,10 @@ def batch(ctx, fields, output, project_path, layer, id_attribute, crs, work_crs,
     from ..soilmap import parse_soil_units
 
     quiet = bool(ctx.obj and ctx.obj.get("quiet"))
+    if plot:                     # refused now rather than after a long run
+        from ..gisio import check_output_target
+
+        check_output_target(plot, overwrite=overwrite, param="plot")
     settings = load_batch_settings(project_path)
     columns = {k: v for k, v in (("k", soil_k_column), ("barrier_depth", soil_barrier_column),
                                  ("drainable_porosity", soil_porosity_column)) if v}
