@@ -57,6 +57,12 @@ def render_figures(result):
         falling_water_table(fd, axes=axes)
         fig.tight_layout()
         out["falling"] = _png(fig)
+    if "simulation" in fd:
+        from .plots import season_simulation_panels
+
+        fig = plt.figure(figsize=(8, 6.4))
+        season_simulation_panels(fd["simulation"], fig=fig, units=fd.get("units", "metric"))
+        out["simulation"] = _png(fig)
     fig, axes = plt.subplots(1, 2, figsize=(8, 2.8))
     if key_profiles(result.pipes_plan.design, axes=axes) is not None:
         fig.tight_layout()

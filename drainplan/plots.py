@@ -328,7 +328,7 @@ def simulated_water_table(dates, depths, *, ax=None, units="metric", drain_depth
 
 
 def sew30_against_spacing(spacings, sew30, *, ax=None, units="metric", target=None,
-                          other=None, marks=None, title=None):
+                          other=None, marks=None, title=None, label="Boussinesq"):
     """SEW30 per season against drain spacing, with the target.
 
     Parameters
@@ -339,8 +339,8 @@ def sew30_against_spacing(spacings, sew30, *, ax=None, units="metric", target=No
         SEW30 [cm d] per season (mean or worst year, as labelled by the caller).
     target : float, optional
         SEW30 target [cm d].
-    other : (label, array_like), optional
-        The other model's SEW30, drawn dashed.
+    other : (label, values) or (label, spacings, values), optional
+        The other model's SEW30 (on ``spacings`` unless given), drawn dashed.
     marks : dict of str -> float, optional
         Spacings to mark with vertical lines (label -> spacing [m]).
     """
@@ -353,9 +353,10 @@ def sew30_against_spacing(spacings, sew30, *, ax=None, units="metric", target=No
     su = display_unit("spacing", units)
     L = to_display(np.asarray(spacings, float), "spacing", units)
     ax.plot(L, sew30, marker="o", markersize=3, color="#1f5f99", linewidth=1.4,
-            label="Boussinesq")
+            label=label)
     if other is not None:
-        ax.plot(L, other[1], color="#888888", linestyle="--", linewidth=1.0, label=other[0])
+        lo = L if len(other) == 2 else to_display(np.asarray(other[1], float), "spacing", units)
+        ax.plot(lo, other[-1], color="#888888", linestyle="--", linewidth=1.0, label=other[0])
     if target is not None:
         ax.axhline(target, color="#c0392b", linestyle="--", linewidth=0.9,
                    label=f"target {target:g} cm·d")
@@ -407,3 +408,45 @@ def drain_exceedance(discharges, *, ax=None, units="metric", coefficient=None, t
     if title:
         ax.set_title(title, fontsize=10)
     return ax
+
+
+def season_simulation_panels(data, *, fig=None, units="metric"):
+    """The season-simulation figure: water table over the wettest season (top), SEW30
+    against spacing with the target (bottom left), drain-discharge exceedance with the
+    pipe drainage coefficient (bottom right).
+
+    Parameters
+    ----------
+    data : dict
+        ``dates``, ``year``, ``depths`` (spacing -> daily depth), ``spacings``, ``sew30``,
+        ``other`` (label, values) or None, ``target``, ``basis``, ``marks``,
+        ``discharges`` (spacing -> daily m/d), ``coefficient``, ``drain_depth``.
+
+    Returns
+    -------
+    list of matplotlib Axes
+    """
+    import matplotlib.pyplot as plt
+
+    from .units import display_unit, to_display
+
+    if fig is None:
+        fig = plt.figure(figsize=(8, 6.4))
+    gs = fig.add_gridspec(2, 2)
+    ax1 = fig.add_subplot(gs[0, :])
+    simulated_water_table(data["dates"], data["depths"], ax=ax1, units=units,
+                          drain_depth=data.get("drain_depth"),
+                          title=f"Wettest season ({data['year']}): midway water table")
+    ax2 = fig.add_subplot(gs[1, 0])
+    basis = "mean season" if data.get("basis", "mean") == "mean" else "worst season"
+    sew30_against_spacing(data["spacings"], data["sew30"], ax=ax2, units=units,
+                          target=data.get("target"), other=data.get("other"),
+                          marks=data.get("marks"), title=f"SEW30, {basis}",
+                          label=data.get("label", "Boussinesq"))
+    ax3 = fig.add_subplot(gs[1, 1])
+    su = display_unit("spacing", units)
+    drain_exceedance({f"L = {to_display(L, 'spacing', units):.0f} {su}": q
+                      for L, q in sorted(data["discharges"].items())}, ax=ax3, units=units,
+                     coefficient=data.get("coefficient"), title="Daily drain discharge")
+    fig.tight_layout()
+    return [ax1, ax2, ax3]

@@ -169,37 +169,30 @@ def _write_plot(path, run, target, units, overwrite):
     import matplotlib.pyplot as plt
 
     from ..gisio import write_atomic
-    from ..plots import (drain_exceedance, save_figure, sew30_against_spacing,
-                         simulated_water_table)
+    from ..plots import save_figure, season_simulation_panels
     from ..simulation_plan import wettest_season
 
     r = run.result
     year, mask = wettest_season(run.weather, run.season)
     idx = sorted({0, r.spacing.size // 2, r.spacing.size - 1})
-    fig = plt.figure(figsize=(8, 6.4))
-    gs = fig.add_gridspec(2, 2, height_ratios=[1.0, 1.0])
-    ax1 = fig.add_subplot(gs[0, :])
-    simulated_water_table(run.weather.dates[mask],
-                          {float(r.spacing[i]): r.water_table_depth[i, mask] for i in idx},
-                          ax=ax1, units=units, drain_depth=run.site.drain_depth,
-                          title=f"Wettest season ({year}), midway water table")
-    ax2 = fig.add_subplot(gs[1, 0])
+    basis = target["basis"] if target else "mean"
+    key = "sew30_cm_d" if basis == "mean" else "sew30_worst_year_cm_d"
     other = None
     if run.other is not None:
         other = ("de Zeeuw-Hellinga" if run.other.model == "reservoir" else "Boussinesq",
-                 [row["other_model"]["sew30_cm_d"] for row in run.rows])
-    sew30_against_spacing(r.spacing, [row["sew30_cm_d"] for row in run.rows], ax=ax2,
-                          units=units, target=target["target_cm_d"] if target else None,
-                          other=other,
-                          marks={"widest within target": target["spacing_m"]}
-                          if target and target.get("spacing_m") else None,
-                          title="SEW30, mean season")
-    ax3 = fig.add_subplot(gs[1, 1])
-    su = display_unit("spacing", units)
-    drain_exceedance({f"L = {to_display(r.spacing[i], 'spacing', units):.0f} {su}":
-                      r.drain[i] / r.time_step for i in idx}, ax=ax3, units=units,
-                     coefficient=run.coefficient, title="Daily drain discharge")
-    fig.tight_layout()
+                 [row["other_model"][key] for row in run.rows])
+    data = {"dates": run.weather.dates[mask], "year": year,
+            "depths": {float(r.spacing[i]): r.water_table_depth[i, mask] for i in idx},
+            "spacings": r.spacing, "sew30": [row[key] for row in run.rows],
+            "other": other, "target": target["target_cm_d"] if target else None,
+            "basis": basis,
+            "label": "Boussinesq" if run.model == "boussinesq" else "de Zeeuw-Hellinga",
+            "marks": {"widest within target": target["spacing_m"]}
+            if target and target.get("spacing_m") else None,
+            "discharges": {float(r.spacing[i]): r.drain[i] / r.time_step for i in idx},
+            "coefficient": run.coefficient, "drain_depth": run.site.drain_depth}
+    fig = plt.figure(figsize=(8, 6.4))
+    season_simulation_panels(data, fig=fig, units=units)
     write_atomic(path, lambda tmp: save_figure(fig, tmp), overwrite=overwrite)
     plt.close(fig)
 
