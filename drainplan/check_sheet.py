@@ -12,9 +12,6 @@ from __future__ import annotations
 
 import io
 import json
-import os
-import shutil
-import tempfile
 from pathlib import Path
 
 __all__ = ["compliance_map", "build_check_sheet", "write_check_outputs", "CHECK_FILES"]
@@ -204,18 +201,9 @@ def write_check_outputs(result, outdir, *, overwrite=False, units="metric", pape
     """Write check_sheet.pdf, check.gpkg (proposal lines with verdicts, strips, fields),
     check.json and the map PNG into ``outdir``, all or nothing. Returns the paths."""
     from .gisio import write_layers
-    from .outputs import _clean, check_output_folder
-    from .errors import InputError
+    from .outputs import _clean, write_output_folder
 
-    out = check_output_folder(outdir, overwrite=overwrite)
-    parent = out.resolve().parent
-    if not parent.exists():
-        raise InputError(f"folder {parent} does not exist", param="output")
-    tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.", dir=parent))
-    umask = os.umask(0)
-    os.umask(umask)
-    os.chmod(tmp, 0o777 & ~umask)
-    try:
+    def write_files(tmp):
         png = _map_png(result)
         build_check_sheet(result.summary, png, str(tmp / "check_sheet.pdf"), units=units,
                           paper=paper)
@@ -228,15 +216,6 @@ def write_check_outputs(result, outdir, *, overwrite=False, units="metric", pape
             json.dumps(_clean(result.summary), indent=2, sort_keys=True) + "\n",
             encoding="utf-8")
         (tmp / "check_map.png").write_bytes(png)
-        if out.exists():
-            backup = Path(tempfile.mkdtemp(prefix=f".{out.name}.old.", dir=parent))
-            os.rmdir(backup)
-            os.replace(out, backup)
-            os.replace(tmp, out)
-            shutil.rmtree(backup, ignore_errors=True)
-        else:
-            os.replace(tmp, out)
-    except BaseException:
-        shutil.rmtree(tmp, ignore_errors=True)
-        raise
-    return [out / name for name in CHECK_FILES]
+
+    # the same folder rules as a design: only drainplan's own files are replaced
+    return write_output_folder(outdir, write_files, names=CHECK_FILES, overwrite=overwrite)

@@ -259,7 +259,9 @@ def design(project, *, progress=None):
         id_field=fl.get("id_attribute"), crs=fl.get("crs"), work_crs=fl.get("work_crs"),
         exclude_path=fl.get("exclusions"), exclude_layer=fl.get("exclusions_layer"),
         exclude_setback=fl.get("exclusion_setback", 15.0), outlet=fl.get("outlet"),
-        repair=lo.get("repair", False)))
+        repair=lo.get("repair", False), survey_path=p.pipes.get("survey"),
+        survey_crs=p.pipes.get("survey_crs"),
+        survey_z_unit=p.pipes.get("survey_z_unit", "m")))
 
     # pipes
     say("pipes")
@@ -612,10 +614,14 @@ def _soil_notes(p, depth, method):
 
 
 def _outlets(lp):
-    """Main outlets: coordinates in the output CRS rounded to about 0.1 m (6 decimals of a
-    degree for longitude/latitude), and easting/northing in the projected work CRS."""
+    """Outlets of the network (the outlet point a trunk drains to, and the own end of any
+    field's main that reaches none): coordinates in the output CRS rounded to about 0.1 m
+    (6 decimals of a degree for longitude/latitude), and easting/northing in the
+    projected work CRS."""
     ol = lp.layers["outlets"]
-    keep = np.asarray(ol["kind"]) == "main outlet"
+    kind = np.asarray(ol["kind"]).astype(str)
+    keep = (kind == "main outlet") | (np.char.find(kind, "outlet (") >= 0) & \
+        (np.char.find(kind, "unused") < 0)
     if not keep.any():
         return []
     ol = ol[keep]
@@ -689,8 +695,13 @@ def _summary(p, table, depth, spacing, raw_spacing, governing, method, compariso
         },
         "outlets": outlets,
         "reaches": pd.reaches,
-        "takeoff": pd.takeoff,
+        "takeoff": [t for t in pd.takeoff if t["field_id"] == "all"],
+        "takeoff_by_field": [t for t in pd.takeoff if t["field_id"] != "all"],
+        "network_outlets": pd.outlets,
+        "outlet_check": next((n for n in pd.notes if n.startswith("outlet not checked")),
+                             "outlet checked against the receiving water level"),
         "pipe_problems": pd.violations,
+        "pipe_problem_summary": pd.problem_summary,
         "layout_notes": lp.notes + lp.reports,
         "pipe_notes": pd.notes,
         "references": [ref for key in ([method] + (["hooghoudt"] if method != "hooghoudt"

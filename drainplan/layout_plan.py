@@ -64,17 +64,26 @@ class LayoutPlan:
     exclusions_metric: object = field(repr=False, default=None)
 
 
-def _field_ids(gdf, id_field):
+def _field_ids(gdf, id_field, notes=None):
+    """Each field's id, from ``id_field`` or the first usual id attribute; the line
+    saying which was used goes to ``notes``."""
+    notes = [] if notes is None else notes
     if id_field is not None:
         if id_field not in gdf.columns:
             cols = ", ".join(c for c in gdf.columns if c != "geometry")
             raise InputError(f"attribute {id_field!r} not found in the fields file; "
                              f"attributes: {cols or 'none'}", param="id_field")
         ids = [str(v) for v in gdf[id_field]]
+        notes.append(f"field ids from attribute {id_field!r}")
     else:
         col = next((c for c in _ID_CANDIDATES if c in gdf.columns), None)
         ids = [str(v) for v in gdf[col]] if col else [f"F{i + 1}" for i in range(len(gdf))]
+        notes.append(f"field ids from attribute {col!r}" if col else
+                     "no id attribute (" + ", ".join(_ID_CANDIDATES) + ") in the fields file: "
+                     f"fields numbered F1..F{len(gdf)} in file order (choose one with "
+                     "--id-field)")
     if len(set(ids)) != len(ids):          # make repeated ids unique: A, A-2, A-3
+        notes.append("repeated field ids made unique with -2, -3, ...")
         seen = {}
         unique = []
         for v in ids:
@@ -101,12 +110,14 @@ def plan_layout(inp: LayoutInputs) -> LayoutPlan:
                                what="fields", option="fields")
     if len(src) == 0:
         raise InputError(f"fields file {inp.fields_path} holds no features", param="fields")
-    ids = _field_ids(src, inp.id_field)
-    metric, work_crs = to_metric(src, file_crs, inp.work_crs)
+    input_notes = []
+    ids = _field_ids(src, inp.id_field, input_notes)
+    metric, work_crs = to_metric(src, file_crs, inp.work_crs, notes=input_notes)
     geoms, reports = check_fields(metric.geometry.values, ids, repair=inp.repair)
     if all(g is None for g in geoms):
         raise InputError("no usable field in the fields file (" + "; ".join(reports) + ")",
                          param="fields")
+    reports = input_notes + reports + _input_checks(geoms, ids, inp.options)
 
     ex_geoms = ex_setbacks = None
     ex_metric = None
@@ -209,6 +220,7 @@ def plan_layout(inp: LayoutInputs) -> LayoutPlan:
         "main_length_m": np.round(per["main_length_m"][used], 2),
         "work_crs": [work_crs.to_string()] * int(used.sum()),
     }
+    field_rows.update(_source_attributes(src, used, field_rows))
     layers = {"field": frame(field_rows, np.asarray(geoms, dtype=object)[used])}
     # lateral ids: field, line number, side of the main (a/b); pieces collected by a
     # sub-main: field, line number, 's' and the sub-main's number
@@ -348,6 +360,42 @@ def plan_layout(inp: LayoutInputs) -> LayoutPlan:
     return LayoutPlan(layers, per_field, tot, notes, reports, work_crs, out_crs, lay,
                       fields_metric=np.asarray(geoms, dtype=object),
                       exclusions_metric=ex_geoms)
+
+
+def _input_checks(geoms, ids, options):
+    """Reports on the set of fields (overlaps), and the refusal of a layout too large
+    to build (:data:`drainplan._validate.MAX_LATERALS`)."""
+    import shapely
+
+    from ._validate import check_lateral_count
+    from .gisio import field_overlaps
+
+    usable = [g for g in geoms if g is not None]
+    b = shapely.bounds(np.array(usable, dtype=object))
+    check_lateral_count(np.hypot(b[:, 2] - b[:, 0], b[:, 3] - b[:, 1]), options.spacing,
+                        sides=2 if options.pattern == "herringbone" else 1)
+    return [f"fields {a!r} and {c!r} overlap by {area / 1e4:.2f} ha: the shared area is "
+            "laid out and counted in both; fix the boundaries"
+            for a, c, area in field_overlaps(geoms, ids)]
+
+
+def _source_attributes(src, used, taken):
+    """The fields file's own attributes, carried onto the field layer (a name that
+    drainplan uses itself gets the prefix 'src_')."""
+    out = {}
+    for col in src.columns:
+        if col == src.geometry.name:
+            continue
+        values = src[col].to_numpy()[used]
+        if values.dtype == object:
+            values = np.array([None if v is None or v != v else
+                               v if isinstance(v, (str, int, float, bool)) else str(v)
+                               for v in values], dtype=object)
+        name = col if col not in taken else f"src_{col}"
+        if name in taken or name in out:
+            continue
+        out[name] = values
+    return out
 
 
 def _field_planes(inp, geoms, ids, work_crs):

@@ -1,13 +1,22 @@
-"""Write a design's deliverables into one folder, atomically.
+"""Write a design's deliverables into one folder, safely.
 
 The folder gets the design sheet (PDF), a GeoPackage with every layer, the pipe
-schedule (CSV) and ``summary.json`` holding every number on the sheet. Files
-are first written into a temporary folder beside the target, which is renamed
-into place only when everything succeeded.
+schedule (CSV), ``summary.json`` holding every number on the sheet and a plan
+PNG. Files are first written into a temporary folder; they are moved into place
+only when everything succeeded, with Ctrl-C and SIGTERM held while they move.
+
+Data safety: a manifest (``.drainplan-outputs.json``) records every file a design
+wrote with its SHA-256. ``--overwrite`` replaces drainplan's own outputs only: a
+folder holding any other file or folder (or a file drainplan wrote but someone
+has since changed) is refused with the names, and so is a folder holding an input
+of the project. Nothing drainplan did not create is ever deleted. A link to a
+folder is written through; a read-only folder is refused; temporary folders left
+by an interrupted run are cleared on the next run.
 """
 
 from __future__ import annotations
 
+import hashlib
 import io
 import json
 import math
@@ -18,9 +27,14 @@ from pathlib import Path
 
 from .errors import InputError
 
-__all__ = ["write_design_outputs", "check_output_folder", "render_figures", "OUTPUT_FILES"]
+__all__ = ["write_design_outputs", "write_output_folder", "check_output_folder",
+           "render_figures", "OUTPUT_FILES", "MANIFEST"]
 
 OUTPUT_FILES = ("design_sheet.pdf", "design.gpkg", "pipe_schedule.csv", "summary.json")
+
+#: The manifest of a design folder: which files drainplan wrote, with their SHA-256.
+MANIFEST = ".drainplan-outputs.json"
+_STAGING = ".drainplan-staging"
 
 
 def _png(fig):
@@ -85,13 +99,111 @@ def _clean(obj):
     return obj
 
 
-def check_output_folder(outdir, *, overwrite=False):
-    """Refuse a file, or a non-empty folder without ``overwrite``; return the Path."""
+def _sha256(path):
+    h = hashlib.sha256()
+    with open(path, "rb") as fh:
+        for block in iter(lambda: fh.read(1 << 20), b""):
+            h.update(block)
+    return h.hexdigest()
+
+
+def _read_manifest(folder):
+    """{file name: [accepted sha256, ...]} of a design folder ({} without a manifest)."""
+    try:
+        data = json.loads((Path(folder) / MANIFEST).read_text(encoding="utf-8"))
+        files = data["files"]
+        return {str(k): ([v] if isinstance(v, str) else [str(x) for x in v])
+                for k, v in files.items()}
+    except (OSError, ValueError, KeyError, TypeError, AttributeError):
+        return {}
+
+
+def _manifest_text(files):
+    return json.dumps({"written_by": "drainplan", "files": files}, indent=2,
+                      sort_keys=True) + "\n"
+
+
+def _within(path, folder):
+    try:
+        Path(path).resolve().relative_to(Path(folder).resolve())
+        return True
+    except ValueError:
+        return False
+
+
+def _names(paths, limit=5):
+    names = [p if isinstance(p, str) else p.name + ("/" if p.is_dir() else "") for p in paths]
+    more = f" and {len(names) - limit} more" if len(names) > limit else ""
+    return ", ".join(sorted(names)[:limit]) + more
+
+
+def check_output_folder(outdir, *, overwrite=False, inputs=()):
+    """Check a design's output folder before any work; return the Path given.
+
+    Parameters
+    ----------
+    outdir : str or Path
+        The folder (created if missing; a link to a folder is written through).
+    overwrite : bool
+        Replace drainplan's own outputs in a non-empty folder.
+    inputs : iterable of paths
+        The project's input files: a folder holding any of them is refused.
+
+    Raises
+    ------
+    InputError
+        A file in the way, a non-empty folder without ``overwrite``, a folder
+        holding files drainplan did not write or the project's inputs (named), a
+        missing parent folder, a read-only folder.
+    """
+    from .gisio import _pid_alive, _read_only, clear_stale_temps
+
     out = Path(outdir)
-    if out.exists() and not out.is_dir():
+    if out.is_symlink() and not out.exists():
+        raise InputError(f"{out} is a link to {os.readlink(out)}, which does not exist",
+                         param="output")
+    real = out.resolve() if out.exists() else Path(os.path.abspath(out))
+    if real.exists() and not real.is_dir():
         raise InputError(f"{out} exists and is not a folder", param="output")
-    if out.exists() and any(out.iterdir()) and not overwrite:
-        raise InputError(f"{out} is not empty; use --overwrite to replace its contents",
+    parent = real.parent
+    if not parent.exists():
+        raise InputError(f"folder {parent} does not exist", param="output")
+    clear_stale_temps(parent, real.name)
+    held = [Path(i) for i in inputs if i is not None and _within(i, real)]
+    if held:
+        raise InputError(f"{out} holds input files of the project ({_names(held)}); "
+                         "write the design into another folder", param="output")
+    if not real.exists():
+        if _read_only(parent):
+            raise InputError(f"cannot create {out}: folder {parent} is read-only",
+                             param="output")
+        return out
+    if _read_only(real):
+        raise InputError(f"cannot write into {out}: the folder is read-only", param="output")
+    entries = []
+    for e in real.iterdir():
+        if e.name.startswith(_STAGING + "."):
+            pid = e.name[len(_STAGING) + 1:].split(".")[0].removeprefix("dp")
+            if pid.isdigit() and _pid_alive(int(pid)):
+                raise InputError(f"another drainplan run is writing into {out}",
+                                 param="output")
+            shutil.rmtree(e, ignore_errors=True)       # left by an interrupted run
+            continue
+        entries.append(e)
+    if not entries:
+        return out
+    if not overwrite:
+        raise InputError(f"{out} is not empty; use --overwrite to replace drainplan's "
+                         "outputs in it", param="output")
+    manifest = _read_manifest(real)
+    foreign = [e for e in entries if e.name != MANIFEST and not (
+        e.name in manifest and e.is_file() and not e.is_symlink()
+        and _sha256(e) in manifest[e.name])]
+    if foreign:
+        why = ("drainplan did not write them" if manifest else
+               "the folder has no drainplan manifest")
+        raise InputError(f"{out} holds files that --overwrite will not replace "
+                         f"({_names(foreign)}: {why}); move them or choose another folder",
                          param="output")
     return out
 
@@ -99,49 +211,97 @@ def check_output_folder(outdir, *, overwrite=False):
 def write_design_outputs(result, outdir, *, overwrite=False, progress=None):
     """Write the deliverables of ``result`` into ``outdir``.
 
-    Refuses a non-empty ``outdir`` unless ``overwrite``. Returns the list of
-    paths written.
+    Refuses a non-empty ``outdir`` unless ``overwrite``, and with it refuses a
+    folder holding anything drainplan did not write there (see
+    :func:`check_output_folder`). Returns the list of paths written.
     """
-    from .gisio import write_layers
-    from .pipes_plan import schedule_csv
+    from .gisio import layers_writer
+    from .network.plan import schedule_csv
     from .sheet import build_sheet
 
     say = progress or (lambda text: None)
-    out = check_output_folder(outdir, overwrite=overwrite)
-    parent = out.resolve().parent
-    if not parent.exists():
-        raise InputError(f"folder {parent} does not exist", param="output")
-    tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.", dir=parent))
-    umask = os.umask(0)
-    os.umask(umask)
-    os.chmod(tmp, 0o777 & ~umask)          # mkdtemp makes it private; a result folder is not
-    try:
+    project = result.project
+    inputs = project.input_files() if hasattr(project, "input_files") else ()
+
+    def write_files(tmp):
         say("figures")
         figs = render_figures(result)
         say("design sheet")
-        rep = result.project.report
+        rep = project.report
         build_sheet(result.summary, figs, str(tmp / "design_sheet.pdf"),
                     units=rep.get("units", "metric"), paper=rep.get("paper", "A4"),
                     logo=rep.get("logo"))
         say("GIS layers and schedule")
         layers = dict(result.layout_plan.layers)
         layers.update(result.pipes_plan.layers)
-        write_layers(tmp / "design.gpkg", layers)
+        layers_writer(layers)(str(tmp / "design.gpkg"))
         (tmp / "pipe_schedule.csv").write_text(schedule_csv(result.pipes_plan.design),
                                                encoding="utf-8")
         (tmp / "summary.json").write_text(
             json.dumps(_clean(result.summary), indent=2, sort_keys=True) + "\n",
             encoding="utf-8")
         (tmp / "plan.png").write_bytes(figs["plan"])
-        if out.exists():
-            backup = Path(tempfile.mkdtemp(prefix=f".{out.name}.old.", dir=parent))
-            os.rmdir(backup)
-            os.replace(out, backup)
-            os.replace(tmp, out)
-            shutil.rmtree(backup, ignore_errors=True)
+
+    return write_output_folder(outdir, write_files, names=(*OUTPUT_FILES, "plan.png"),
+                               overwrite=overwrite, inputs=inputs)
+
+
+def write_output_folder(outdir, write_files, *, names, overwrite=False, inputs=()):
+    """Write a command's output files into a folder, all or none, replacing only
+    drainplan's own files.
+
+    Parameters
+    ----------
+    outdir : str or Path
+    write_files : callable
+        ``write_files(tmp)`` writes every file of ``names`` into the folder ``tmp``.
+    names : sequence of str
+        The files written (recorded with their SHA-256 in the manifest).
+    overwrite : bool
+    inputs : iterable of paths
+        Input files that must not lie in the folder.
+
+    Returns
+    -------
+    list of Path
+    """
+    from .gisio import signals_deferred, temp_prefix
+
+    out = check_output_folder(outdir, overwrite=overwrite, inputs=inputs)
+    real = out.resolve() if out.exists() else Path(os.path.abspath(out))
+    fresh = not real.exists()
+    where = real.parent if fresh else real
+    prefix = temp_prefix(real.name) if fresh else f"{_STAGING}.dp{os.getpid()}."
+    tmp = Path(tempfile.mkdtemp(prefix=prefix, dir=where))
+    try:
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(tmp, 0o777 & ~umask)      # mkdtemp makes it private; a result folder is not
+        write_files(tmp)
+        new = {name: _sha256(tmp / name) for name in names}
+        if fresh:
+            (tmp / MANIFEST).write_text(_manifest_text(new), encoding="utf-8")
+            with signals_deferred():
+                os.replace(tmp, real)
         else:
-            os.replace(tmp, out)
+            old = _read_manifest(real)
+            # while files move, the manifest accepts the old and the new versions, so an
+            # interruption can never make drainplan's own files look foreign
+            both = {k: sorted(set(old.get(k, [])) | {new[k]} if k in new else old[k])
+                    for k in set(old) | set(new)}
+            (tmp / (MANIFEST + ".1")).write_text(_manifest_text(both), encoding="utf-8")
+            (tmp / (MANIFEST + ".2")).write_text(_manifest_text(new), encoding="utf-8")
+            with signals_deferred():
+                os.replace(tmp / (MANIFEST + ".1"), real / MANIFEST)
+                for name in names:
+                    os.replace(tmp / name, real / name)
+                for name in old:
+                    if name not in new and name == Path(name).name and name != MANIFEST \
+                            and (real / name).is_file():
+                        os.unlink(real / name)      # an output of ours no longer made
+                os.replace(tmp / (MANIFEST + ".2"), real / MANIFEST)
+            shutil.rmtree(tmp, ignore_errors=True)
     except BaseException:
         shutil.rmtree(tmp, ignore_errors=True)
         raise
-    return [out / name for name in (*OUTPUT_FILES, "plan.png")]
+    return [out / name for name in names]

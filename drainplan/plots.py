@@ -210,13 +210,29 @@ def falling_water_table(fig_data, *, axes=None):
 
 
 def key_profiles(design, *, axes=None):
-    """Long sections of a pipe design's longest main and its flattest lateral.
+    """Long sections of a pipe design: the trunk and mains from the outlet up (or the
+    longest main) and the flattest lateral.
 
     Returns the axes, or None when the design has no profiles (no elevations).
     """
     import matplotlib.pyplot as plt
 
     prof = design.profiles
+    if "outlet up" in prof:             # the network's backbone: trunk and mains
+        lats = [r for r in design.reaches if r["kind"] == "lateral" and r["reach_id"] in prof]
+        if axes is None:
+            _, axes = plt.subplots(1, 2, figsize=(8, 2.8))
+        p = prof["outlet up"]
+        profile_plot(p, ax=axes[0], title="from the outlet up: " +
+                     " \u2192 ".join(p.get("carriers", [])[:4]) +
+                     (" ..." if len(p.get("carriers", [])) > 4 else ""))
+        axes[0].set_xlabel("distance from the outlet (m)")
+        if lats:
+            flat = min(lats, key=lambda r: r["grade"])
+            profile_plot(prof[flat["reach_id"]], ax=axes[1],
+                         title=f"lateral {flat['reach_id']} (least fall, grade "
+                               f"{flat['grade']:.2%})")
+        return axes
     mains = [k for k in prof if k.endswith("-M")]
     lats = [r for r in design.reaches if r["kind"] == "lateral" and r["reach_id"] in prof]
     if not mains and not lats:

@@ -14,6 +14,7 @@ import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 
+from ._validate import QUANTITIES, check_order, check_point, check_quantity
 from .errors import InputError
 from .units import parse_quantity
 
@@ -79,6 +80,37 @@ SCHEMA = {
 }
 _REQUIRED_SECTIONS = ("site", "fields", "soil", "drains")
 
+#: (section, key) -> row of the range table (drainplan._validate.QUANTITIES) where the
+#: key's own name is not the quantity's name. Every other key whose name is in
+#: QUANTITIES is checked against that row, so a new section's keys only need a row.
+CHECKED_AS = {("drains", "depth"): "drain_depth", ("drains", "radius"): "drain_radius",
+              ("soil", "thickness"): "layer_thickness"}
+
+#: Referenced files: (section, key) -> (what, size limit in bytes, must be an image).
+FILE_LIMITS = {("report", "logo"): ("logo", 20 * 2**20, True),
+               ("fields", "file"): ("fields", None, False),
+               ("fields", "exclusions"): ("exclusions", None, False),
+               ("fields", "outlet"): ("outlet", None, False),
+               ("pipes", "survey"): ("survey", None, False),
+               ("pipes", "dem"): ("DEM", None, False),
+               ("pipes", "sizes"): ("pipe sizes", None, False),
+               ("simulation", "weather"): ("weather", 200 * 2**20, False)}
+_DEFAULT_FILE_LIMIT = 4 * 2**30
+
+
+def _check_value(section, key, value):
+    """Check a converted value (or each of a list) against the one range table."""
+    leaf = key.split(".")[-1].split("[")[0]
+    q = CHECKED_AS.get((section, leaf), leaf)
+    if q not in QUANTITIES or isinstance(value, str):
+        return value
+    name = f"{section}.{key}"
+    if isinstance(value, list):
+        for v in value:
+            check_quantity(q, v, name=name)
+        return value
+    return check_quantity(q, value, name=name)
+
 
 @dataclass
 class Project:
@@ -96,10 +128,33 @@ class Project:
     raw: dict = field(default_factory=dict, repr=False)
     simulation: dict = field(default_factory=dict)
 
+    def input_files(self):
+        """Every file the project reads: the project file itself and each referenced
+        file (an output folder holding one of them is refused)."""
+        files = [self.path]
+        for section, keys in SCHEMA.items():
+            values = getattr(self, section, {})
+            for key, (kind, _) in keys.items():
+                v = values.get(key)
+                if isinstance(v, str) and (kind == "path" or kind == "point"):
+                    files.append(Path(v))
+        return files
+
 
 def _suggest(word, options):
     close = difflib.get_close_matches(word, list(options), n=1, cutoff=0.5)
     return f" (did you mean {close[0]!r}?)" if close else ""
+
+
+def _check_file(section, key, path):
+    """A referenced file must exist, be a regular file of sensible size (an image for
+    a logo): checked when the project is read, before any work starts."""
+    from .gisio import check_input_file
+
+
+    what, limit, image = FILE_LIMITS.get((section, key), ("referenced", None, False))
+    check_input_file(path, what=f"{section}.{key}: {what}", max_bytes=limit or
+                     _DEFAULT_FILE_LIMIT, image=image, param="project")
 
 
 def _convert(section, key, kind, value, base):
@@ -131,7 +186,7 @@ def _convert(section, key, kind, value, base):
             return "auto"
         if isinstance(value, bool) or not isinstance(value, (int, float)):
             raise InputError(f"{name} must be a bearing in degrees or \"auto\", got {value!r}")
-        return float(value)
+        return check_quantity("direction", value, name=name)
     if kind == "depths":
         values = value if isinstance(value, list) else [value]
         if not values:
@@ -157,7 +212,8 @@ def _convert(section, key, kind, value, base):
                 if k2 not in allowed:
                     raise InputError(f"unknown key {name}[{i}].{k2}"
                                      + _suggest(k2, allowed))
-                entry[k2] = _convert(section, f"{key}[{i}].{k2}", allowed[k2], v2, base)
+                entry[k2] = _check_value(section, f"{key}[{i}].{k2}", _convert(
+                    section, f"{key}[{i}].{k2}", allowed[k2], v2, base))
             for req in ("thickness", "k"):
                 if req not in entry:
                     raise InputError(f"{name}[{i}].{req} is required")
@@ -166,15 +222,20 @@ def _convert(section, key, kind, value, base):
     if kind == "point":
         if isinstance(value, list) and len(value) == 2 and all(
                 isinstance(v, (int, float)) and not isinstance(v, bool) for v in value):
-            return (float(value[0]), float(value[1]))
+            return check_point(value, name=name)
         if isinstance(value, str):
             return str((base / value).resolve()) if not Path(value).is_absolute() else value
         raise InputError(f"{name} must be [x, y] in the fields' CRS or a point file path")
     return parse_quantity(value, kind, name=name)
 
 
-def load_project(path):
+def load_project(path, *, check_files=True):
     """Read and validate a project file.
+
+    Every value is checked against its allowed range (the same table the CLI
+    options use) and, with ``check_files``, every referenced file is checked
+    (exists, regular file, size, an image for the logo) before any work starts;
+    ``check_files=False`` reads a template whose data files are not there yet.
 
     Raises
     ------
@@ -212,7 +273,8 @@ def load_project(path):
                 raise InputError(f"{p.name}: unknown key {section}.{key}"
                                  + _suggest(f"{section}.{key}", full), param="project")
             try:
-                values[key] = _convert(section, key, keys[key][0], value, base)
+                values[key] = _check_value(section, key,
+                                           _convert(section, key, keys[key][0], value, base))
             except InputError as exc:
                 raise InputError(f"{p.name}: {exc}", param="project") from None
         for key, (_, required) in keys.items():
@@ -255,8 +317,34 @@ def load_project(path):
             "layers" in soil and all("drainable_porosity" in ly for ly in soil["layers"])):
         raise InputError(f"{p.name}: soil.drainable_porosity is required with the falling "
                          "criterion", param="project")
+    _cross_checks(p.name, out)
     _check_simulation(p.name, raw, out["simulation"])
-    return Project(path=p, raw=raw, **out)
+    project = Project(path=p, raw=raw, **out)
+    if check_files:
+        for section, keys in SCHEMA.items():
+            for key, (kind, _) in keys.items():
+                value = out[section].get(key)
+                if kind in ("path", "point") and isinstance(value, str):
+                    try:
+                        _check_file(section, key, value)
+                    except InputError as exc:
+                        raise InputError(f"{p.name}: {exc}", param="project") from None
+    return project
+
+
+def _cross_checks(fname, out):
+    """Checks between keys (each key's own range is checked as it is read)."""
+    crit, pipes = out["criteria"], out["pipes"]
+    pairs = [(crit, "initial_depth", crit, "final_depth", "criteria"),
+             (pipes, "min_grade", pipes, "max_grade", "pipes"),
+             (pipes, "min_velocity", pipes, "max_velocity", "pipes"),
+             (pipes, "min_cover", pipes, "max_depth", "pipes")]
+    for lo_sec, lo, hi_sec, hi, section in pairs:
+        try:
+            check_order(lo, lo_sec.get(lo), hi, hi_sec.get(hi), low_name=f"{section}.{lo}",
+                        high_name=f"{section}.{hi}")
+        except InputError as exc:
+            raise InputError(f"{fname}: {exc}", param="project") from None
 
 
 def _check_simulation(name, raw, sim):

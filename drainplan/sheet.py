@@ -460,10 +460,10 @@ def build_sheet(summary, figures_png, path, *, units="metric", paper="A4", logo=
     msizes = ", ".join(f"{k}: {f.length(v, 0)}" for k, v in q["main_length_by_size_m"].items())
     story.append(Spacer(1, 3))
     conn = q.get("connector_length_m") or 0.0
-    story.append(P(f"Lateral pipe {f.length(lat_total, 0)} = {f.length(q['lateral_length_m'], 0)}"
-                   f" of perforated laterals + {f.length(conn, 0)} of solid connectors to the "
-                   f"mains (as in the take-off). Laterals by size — {sizes}. Mains by size — "
-                   f"{msizes}.", "small"))
+    story.append(P(f"Lateral pipe {f.length(lat_total, 0)} of perforated laterals; "
+                   f"{f.length(conn, 0)} of solid connectors, the sub-mains, mains and trunk "
+                   f"are solid pipe (as in the take-off). Laterals by size — {sizes}. Mains "
+                   f"and trunk by size — {msizes}.", "small"))
     if s["outlets"]:
         def where(o):
             if o.get("geographic"):
@@ -471,7 +471,7 @@ def build_sheet(summary, figures_png, path, *, units="metric", paper="A4", logo=
                 return (f"{abs(lat):.6f}° {'N' if lat >= 0 else 'S'}, "
                         f"{abs(lon):.6f}° {'E' if lon >= 0 else 'W'}")
             return f"E {o['x']:.1f}, N {o['y']:.1f} ({_esc(o.get('crs') or 'file CRS')})"
-        story.append(P("Outlets (main downstream ends): " + "; ".join(
+        story.append(P("Outlets of the network: " + "; ".join(
             f"{T(o['field_id'], 'field id')} at {where(o)}" for o in s["outlets"]), "small"))
     story.append(Spacer(1, 4))
     story.append(_image(figures_png["plan"], width * 0.92, fit=True))
@@ -584,20 +584,26 @@ def build_sheet(summary, figures_png, path, *, units="metric", paper="A4", logo=
     trows = [["Item", "Material", "Size", "Quantity"]]
     for t in s["takeoff"]:
         qty = f.length(t["length_m"], 1) if t["length_m"] else f"{t['count']} pcs"
-        trows.append([t["kind"], t["material"] or "–", t["size"], qty])
+        kind = t["kind"] + (" (perforated)" if t.get("perforated") else "")
+        trows.append([kind, t["material"] or "–", t["size"], qty])
     story.append(_table(trows))
-    story.append(P("Lateral lengths include the solid connectors between the laterals and the "
-                   "mains.", "small"))
+    story.append(P("Whole job; per-field quantities are in summary.json. Perforated pipe is "
+                   "the laterals only; connectors, sub-mains, mains, trunk and the outlet "
+                   "pipe are solid.", "small"))
     if "profiles" in figures_png:
         story.append(P("Profiles", "h"))
         story.append(_image(figures_png["profiles"], width * 0.9))
     story.append(P("Grade, capacity and layout warnings", "h"))
     problems = s["pipe_problems"]
     if not problems:
-        story.append(P("No grade, cover, junction, velocity or outlet problem found."))
-    for v in problems:
-        story.append(P(f"• {T(v['reach_id'])}: {_esc(v['problem'])} — {_esc(v['fix'])}",
-                       "small"))
+        story.append(P("No grade, cover, junction or velocity problem found."))
+    story.append(P("Outlet: " + _esc(s.get("outlet_check", "")) + ".", "small"))
+    for line in s.get("pipe_problem_summary") or [
+            f"{v['reach_id']}: {v['problem']} -> {v['fix']}" for v in problems]:
+        story.append(P("• " + _esc(line.replace(" -> ", " — ")), "small"))
+    if problems:
+        story.append(P("Every place is listed in pipe_schedule.csv (warnings column) and the "
+                       "pipe_warnings layer.", "small"))
     for n in s["layout_notes"] + s["pipe_notes"]:
         story.append(P("• " + _esc(n), "small"))
 

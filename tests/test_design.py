@@ -87,7 +87,8 @@ def test_summary_agrees_with_separate_commands(demo_design, run, tmp_path):
     lay = tmp_path / "layout.gpkg"
     r = run("layout", DEMO / "fields.geojson", "--spacing", str(spacing), "--direction", "auto",
             "--setback", "6 m", "--min-length", "10 m", "--exclude", DEMO / "exclusions.geojson",
-            "--outlet", DEMO / "outlet.geojson", "-o", lay, "--json")
+            "--outlet", DEMO / "outlet.geojson", "--survey", DEMO / "survey.csv",
+            "--survey-crs", "EPSG:4326", "-o", lay, "--json")
     totals = json.loads(r.stdout)["totals"]
     for key in ("laterals", "lateral_length_m", "main_length_m", "unconnected_pieces"):
         assert s["quantities"][key] == pytest.approx(totals[key], abs=1e-3)

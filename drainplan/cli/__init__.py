@@ -14,12 +14,14 @@ from __future__ import annotations
 
 import importlib
 import os
+import signal
 import sys
+import threading
 
 import click
 
 from .. import __version__
-from ..errors import DrainplanError, InputError
+from ..errors import DrainplanError, GeometryError, InputError
 
 __all__ = ["cli", "main"]
 
@@ -29,15 +31,26 @@ def option_name(param):
     return "--" + param.replace("_", "-")
 
 
-def _option_names(group):
-    """Long option names of every command in the group (to name an input by its option)."""
+def _option_names(group, command_name=None):
+    """Long option names of the command run (of every command in the group if none
+    is known), to name an input by its option."""
     names = set()
-    for command in group.commands.values():
+    commands = ([group.commands[command_name]] if command_name in group.commands
+                else group.commands.values())
+    for command in commands:           # the commands loaded so far
         if isinstance(command, click.Group):          # subcommands (drainplan soil ...)
             names |= _option_names(command)
-        for p in command.params:  # the commands loaded so far
+        for p in command.params:
             names.update(o for o in getattr(p, "opts", []) if o.startswith("--"))
     return names
+
+
+class _Terminated(KeyboardInterrupt):
+    """SIGTERM, handled like Ctrl-C: temporary files are removed on the way out."""
+
+
+def _on_sigterm(signum, frame):
+    raise _Terminated()
 
 
 #: Commands loaded on demand: name -> (module in drainplan.cli, command object,
@@ -96,9 +109,9 @@ def limit_threads(environ=None):
 class DrainplanGroup(click.Group):
     """Click group that turns every error into one line on stderr.
 
-    Exit codes: 0 success, 1 a domain failure (no solution, unreadable data),
-    2 a bad option or input value. Commands of :data:`COMMANDS` are imported on
-    first use.
+    Exit codes: 0 success, 1 a domain failure (no solution) or an interruption,
+    2 a bad option, input value or input geometry. Commands of :data:`COMMANDS`
+    are imported on first use.
     """
 
     def list_commands(self, ctx):
@@ -129,6 +142,10 @@ class DrainplanGroup(click.Group):
 
     def main(self, args=None, prog_name=None, complete_var=None, standalone_mode=True,
              **extra):
+        self._command_name = None
+        old_term = None
+        if threading.current_thread() is threading.main_thread():
+            old_term = signal.signal(signal.SIGTERM, _on_sigterm)
         try:
             rv = super().main(args=args, prog_name=prog_name or "drainplan",
                               complete_var=complete_var, standalone_mode=False, **extra)
@@ -140,12 +157,17 @@ class DrainplanGroup(click.Group):
             if exc.ctx is not None and exc.ctx.command_path:
                 msg = f"{msg} (see '{exc.ctx.command_path} --help')"
             rv = self._error(msg, 2, standalone_mode)
-        except click.Abort:
-            rv = self._error("aborted", 1, standalone_mode)
-        except InputError as exc:
+        except click.Abort as exc:
+            term = isinstance(exc.__context__, _Terminated) or isinstance(exc.__cause__,
+                                                                          _Terminated)
+            rv = self._error("terminated (SIGTERM); no output written" if term else
+                             "aborted; no output written", 1, standalone_mode)
+        except _Terminated:
+            rv = self._error("terminated (SIGTERM); no output written", 1, standalone_mode)
+        except (InputError, GeometryError) as exc:        # bad input, bad geometry: exit 2
             msg = str(exc)
             opt = option_name(exc.param) if exc.param else None
-            if opt in _option_names(self) and not msg.startswith("--"):
+            if opt in _option_names(self, self._command_name) and not msg.startswith("--"):
                 msg = f"{opt}: {msg}"
             rv = self._error(msg, 2, standalone_mode)
         except DrainplanError as exc:
@@ -156,9 +178,17 @@ class DrainplanGroup(click.Group):
         except OSError as exc:
             rv = self._error(f"{exc.strerror or exc}: {exc.filename or ''}".rstrip(": "),
                              1, standalone_mode)
+        finally:
+            if old_term is not None:
+                signal.signal(signal.SIGTERM, old_term)
         if standalone_mode:
             sys.exit(rv or 0)
         return rv
+
+    def resolve_command(self, ctx, args):
+        name, cmd, rest = super().resolve_command(ctx, args)
+        self._command_name = cmd.name if cmd is not None else name
+        return name, cmd, rest
 
     @staticmethod
     def _error(message, code, standalone_mode):

@@ -2,12 +2,14 @@
 
 from __future__ import annotations
 
+import contextlib
 import json
 import time
 from pathlib import Path
 
 import click
 
+from ..errors import InputError
 from ..units import show
 from .options import json_option
 
@@ -31,11 +33,24 @@ def init(directory, template, overwrite):
     from ..project import TEMPLATES
 
     d = Path(directory)
-    d.mkdir(parents=True, exist_ok=True)
+    if d.exists() and not d.is_dir():
+        raise InputError(f"DIRECTORY {d} exists and is not a folder", param="directory")
+    made = not d.exists()
+    try:
+        d.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise InputError(f"DIRECTORY {d} cannot be created: {exc.strerror}",
+                         param="directory") from None
     target = d / "project.toml"
     text = template_text(TEMPLATES[template])
-    write_atomic(target, lambda tmp: Path(tmp).write_text(text, encoding="utf-8"),
-                 overwrite=overwrite)
+    try:
+        write_atomic(target, lambda tmp: Path(tmp).write_text(text, encoding="utf-8"),
+                     overwrite=overwrite, param="directory")
+    except BaseException:
+        if made:
+            with contextlib.suppress(OSError):
+                d.rmdir()
+        raise
     click.echo(f"wrote {target}: put the field boundaries beside it (fields.geojson), edit "
                f"the soil data and criteria, then run: drainplan design {target} -o "
                f"{d / 'design'}")
@@ -45,7 +60,9 @@ def init(directory, template, overwrite):
 @click.argument("project_path", metavar="PROJECT.toml", type=click.Path(dir_okay=False))
 @click.option("-o", "--output", required=True, type=click.Path(file_okay=False),
               help="Folder for the design sheet, GeoPackage, schedule and summary.")
-@click.option("--overwrite", is_flag=True, help="Replace the contents of a non-empty folder.")
+@click.option("--overwrite", is_flag=True,
+              help="Replace drainplan's own outputs in a non-empty folder (a folder holding "
+                   "other files or the project's inputs is refused).")
 @json_option
 @click.pass_context
 def design(ctx, project_path, output, overwrite, as_json):
@@ -62,14 +79,15 @@ def design(ctx, project_path, output, overwrite, as_json):
     from ..project import load_project
 
     quiet = bool(ctx.obj and ctx.obj.get("quiet"))
-    out = check_output_folder(output, overwrite=overwrite)     # before the work, not after
+    project = load_project(project_path)       # checks every value and referenced file
+    out = check_output_folder(output, overwrite=overwrite,        # before the work, not after
+                              inputs=project.input_files())
     t0 = time.perf_counter()
 
     def progress(step):
         if not quiet:
             click.echo(f"[{time.perf_counter() - t0:5.1f} s] {step}", err=True)
 
-    project = load_project(project_path)
     result = run_design(project, progress=progress)
     paths = write_design_outputs(result, out, overwrite=overwrite, progress=progress)
     s = result.summary

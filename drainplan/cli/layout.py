@@ -9,7 +9,8 @@ import click
 
 from ..errors import InputError
 from ..units import display_unit, show, to_display
-from .options import LENGTH, json_option, units_option
+from .._validate import check_order, check_point, check_quantity
+from .options import Number, checked, json_option, units_option
 
 
 def _parse_direction(value):
@@ -20,10 +21,10 @@ def _parse_direction(value):
     except ValueError:
         raise click.BadParameter("expected a bearing in degrees clockwise from north "
                                  "(e.g. 35) or 'auto'", param_hint="'--direction'") from None
-    if not -360 <= b <= 360:
-        raise click.BadParameter("a bearing must lie between -360 and 360 degrees",
-                                 param_hint="'--direction'")
-    return b
+    try:
+        return check_quantity("direction", b)
+    except InputError as exc:
+        raise click.BadParameter(str(exc), param_hint="'--direction'") from None
 
 
 def _parse_outlet(value):
@@ -33,9 +34,14 @@ def _parse_outlet(value):
     parts = str(value).split(",")
     if len(parts) == 2:
         try:
-            return (float(parts[0]), float(parts[1]))
+            xy = (float(parts[0]), float(parts[1]))
         except ValueError:
-            pass
+            xy = None
+        if xy is not None:
+            try:
+                return check_point(xy, name="X,Y")
+            except InputError as exc:
+                raise click.BadParameter(str(exc), param_hint="'--outlet'") from None
     if Path(value).exists():
         return str(value)
     raise click.BadParameter("expected X,Y in the fields file's coordinates or a file with "
@@ -44,11 +50,12 @@ def _parse_outlet(value):
 
 @click.command(short_help="Lay out laterals and mains over field boundaries.")
 @click.argument("fields", type=click.Path(dir_okay=False))
-@click.option("--spacing", type=LENGTH, required=True, help="Lateral spacing, e.g. '18 m'.")
+@click.option("--spacing", type=checked("length",
+              "spacing"), required=True, help="Lateral spacing, e.g. '18 m'.")
 @click.option("--direction", default="auto", show_default=True,
               help="Bearing of the laterals in degrees clockwise from north, or 'auto' "
                    "(long axis of each field).")
-@click.option("--setback", type=LENGTH, default="0", show_default=True,
+@click.option("--setback", type=checked("length", "setback"), default="0", show_default=True,
               help="Headland setback of laterals from the field boundary.")
 @click.option("-o", "--output", type=click.Path(dir_okay=False), required=True,
               help="GeoPackage to write (.gpkg).")
@@ -63,11 +70,13 @@ def _parse_outlet(value):
 @click.option("--exclude", "exclude_path", type=click.Path(dir_okay=False),
               help="Layer of exclusions (wells, ponds, buildings, hedges...).")
 @click.option("--exclude-layer", help="Layer of the exclusions file.")
-@click.option("--exclude-setback", type=LENGTH, default="15 m", show_default=True,
+@click.option("--exclude-setback", type=checked("length", "exclusion_setback"),
+              default="15 m", show_default=True,
               help="Setback around exclusions without a 'setback_m' attribute.")
-@click.option("--min-length", type=LENGTH, default="10 m", show_default=True,
+@click.option("--min-length", type=checked("length",
+              "min_length"), default="10 m", show_default=True,
               help="Drop lateral pieces shorter than this (they are counted).")
-@click.option("--offset", type=LENGTH,
+@click.option("--offset", type=checked("length", "offset"),
               help="Distance of the first lateral from the edge (default: balanced strips).")
 @click.option("--main-side", default="auto", show_default=True,
               type=click.Choice(["auto", "N", "NE", "E", "SE", "S", "SW", "W", "NW"]),
@@ -76,7 +85,8 @@ def _parse_outlet(value):
               show_default=True, help="Parallel laterals on an edge main, or a herringbone: "
                                       "a main through the field along --direction with "
                                       "laterals joining it from both sides.")
-@click.option("--herringbone-angle", type=float, default=45.0, show_default=True,
+@click.option("--herringbone-angle", type=Number("herringbone_angle"),
+              default=45.0, show_default=True,
               help="Angle between laterals and main in the herringbone, degrees (15-75).")
 @click.option("--main", "main_path", type=click.Path(dir_okay=False),
               help="A line layer drawn by the user to use as the main.")
@@ -117,12 +127,10 @@ def layout(fields, spacing, direction, setback, output, layer, id_field, crs, wo
     out = Path(output)
     if out.suffix.lower() != ".gpkg":
         raise InputError("output must be a GeoPackage file ending in .gpkg", param="output")
-    targets = [out] + ([Path(plot_path)] if plot_path else [])
-    for t in targets:
-        if t.exists() and not overwrite:
-            raise InputError(f"{t} exists; use --overwrite to replace it", param="output")
-    if offset is not None and not 0 <= offset < spacing:
-        raise InputError("offset must be 0 or more and less than the spacing", param="offset")
+    check_layout_targets(out, plot_path=plot_path, geojson_dir=geojson_dir,
+                         overwrite=overwrite)                 # every target, before any work
+    check_order("offset", offset, "spacing", spacing, low_name="--offset",
+                high_name="--spacing")
     outlet_value = _parse_outlet(outlet)
     opts = LayoutOptions(spacing=spacing, direction=_parse_direction(direction),
                          setback=setback, min_length=min_length, offset=offset,
@@ -142,12 +150,37 @@ def layout(fields, spacing, direction, setback, output, layer, id_field, crs, wo
         click.echo(_text(plan, out, plot_path, units))
 
 
-def write_layout(plan, out, *, plot_path=None, geojson_dir=None, overwrite=False):
-    """Write the layers (GeoPackage), and optionally a PNG plan and GeoJSON files."""
-    from ..gisio import write_atomic, write_geojson, write_layers
+def _layout_jobs(plan, out, plot_path=None, geojson_dir=None):
+    """(path, writer, option) of every output of a layout; ``plan`` None gives the
+    targets only (for checking them before any work)."""
+    from .. import gisio
+    from ..layout_plan import LAYER_NAMES
 
-    write_layers(out, plan.layers, overwrite=overwrite)
+    jobs = [(out, plan and gisio.layers_writer(plan.layers), "output")]
     if plot_path:
+        jobs.append((Path(plot_path), plan and _plan_png_writer(plan), "plot"))
+    if geojson_dir:
+        names = list(plan.layers) if plan is not None else list(LAYER_NAMES)
+        for name in names:
+            jobs.append((Path(geojson_dir) / f"{name}.geojson",
+                         plan and gisio.geojson_writer(plan.layers[name], name), "geojson-dir"))
+    return jobs
+
+
+def check_layout_targets(out, *, plot_path=None, geojson_dir=None, overwrite=False):
+    """Refuse, before any work, an output target that cannot be written."""
+    from ..gisio import check_output_target
+
+    if geojson_dir and Path(geojson_dir).exists() and not Path(geojson_dir).is_dir():
+        raise InputError(f"{geojson_dir} exists and is not a folder", param="geojson_dir")
+    for path, _, opt in _layout_jobs(None, out, plot_path, geojson_dir):
+        if opt == "geojson-dir" and not path.parent.exists():
+            continue                                  # the folder is made when writing
+        check_output_target(path, overwrite=overwrite, param=opt.replace("-", "_"))
+
+
+def _plan_png_writer(plan):
+    def writer(tmp):
         import matplotlib
 
         matplotlib.use("Agg")
@@ -157,14 +190,35 @@ def write_layout(plan, out, *, plot_path=None, geojson_dir=None, overwrite=False
 
         metric = {k: v.to_crs(plan.work_crs) for k, v in plan.layers.items()}
         fig, ax = plt.subplots(figsize=(8, 8))
-        plan_map(metric, ax=ax, title="Drainage layout")
-        write_atomic(plot_path, lambda tmp: save_figure(fig, tmp), overwrite=overwrite)
-        plt.close(fig)
-    if geojson_dir:
-        d = Path(geojson_dir)
-        d.mkdir(parents=True, exist_ok=True)
-        for name, gdf in plan.layers.items():
-            write_geojson(d / f"{name}.geojson", gdf, overwrite=overwrite)
+        try:
+            plan_map(metric, ax=ax, title="Drainage layout")
+            save_figure(fig, tmp)
+        finally:
+            plt.close(fig)
+
+    return writer
+
+
+def write_layout(plan, out, *, plot_path=None, geojson_dir=None, overwrite=False):
+    """Write the layers (GeoPackage), and optionally a PNG plan and GeoJSON files:
+    every target is checked first and the files are committed together (all or
+    none)."""
+    from ..gisio import write_outputs
+
+    made = None
+    if geojson_dir and not Path(geojson_dir).exists():
+        made = Path(geojson_dir)
+        made.mkdir(parents=True)
+    try:
+        jobs = [(p, w, o.replace("-", "_")) for p, w, o in
+                _layout_jobs(plan, Path(out), plot_path, geojson_dir)]
+        return write_outputs(jobs, overwrite=overwrite)
+    except BaseException:
+        if made is not None:
+            import shutil
+
+            shutil.rmtree(made, ignore_errors=True)
+        raise
 
 
 def layout_summary(plan, out=None):

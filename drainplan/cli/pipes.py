@@ -9,12 +9,13 @@ import click
 
 from ..errors import InputError
 from ..units import show
-from .options import LENGTH, RATE, json_option, units_option
+from .._validate import check_order
+from .options import LENGTH, Number, checked, json_option, units_option
 
 
 @click.command(short_help="Size and grade the pipes of a layout.")
 @click.argument("layout_path", metavar="LAYOUT.gpkg", type=click.Path(dir_okay=False))
-@click.option("--coefficient", type=RATE, required=True,
+@click.option("--coefficient", type=checked("rate", "coefficient"), required=True,
               help="Drainage coefficient for pipe capacity, e.g. '10 mm/d' or '3/8 in/d'. "
                    "It often equals the steady design recharge, but practice may set it "
                    "separately (e.g. higher where surface inlets feed the system).")
@@ -35,31 +36,39 @@ from .options import LENGTH, RATE, json_option, units_option
 @click.option("--capacity-method", type=click.Choice(["manning", "power-law"]),
               default="manning", show_default=True,
               help="Manning full flow, or the drain-pipe power laws of metric practice.")
-@click.option("--capacity-factor", type=float, default=0.75, show_default=True,
+@click.option("--capacity-factor", type=Number("capacity_factor"), default=0.75, show_default=True,
               help="Share of full capacity used (sediment allowance).")
-@click.option("--drain-depth", type=LENGTH, default="1.0 m", show_default=True,
+@click.option("--drain-depth", type=checked("length",
+              "drain_depth"), default="1.0 m", show_default=True,
               help="Design depth of the laterals.")
-@click.option("--main-depth", type=LENGTH, help="Design depth of the main (default: drain "
+@click.option("--main-depth", type=checked("length",
+              "main_depth"), help="Design depth of the main (default: drain "
                                                 "depth + 0.3 m).")
-@click.option("--min-grade", type=float, default=0.1, show_default=True,
-              help="Minimum grade, percent.")
-@click.option("--max-grade", type=float, default=5.0, show_default=True,
-              help="Maximum grade, percent.")
-@click.option("--min-cover", type=LENGTH, default="0.6 m", show_default=True,
+@click.option("--min-grade", type=checked("fraction", "min_grade", "percent"),
+              default="0.1 %", show_default=True,
+              help="Minimum grade: '0.1 %' or a bare number in percent.")
+@click.option("--max-grade", type=checked("fraction", "max_grade", "percent"),
+              default="5 %", show_default=True,
+              help="Maximum grade: '5 %' or a bare number in percent.")
+@click.option("--min-cover", type=checked("length",
+              "min_cover"), default="0.6 m", show_default=True,
               help="Minimum cover over the pipe.")
-@click.option("--max-depth", type=LENGTH, default="2.0 m", show_default=True,
+@click.option("--max-depth", type=checked("length",
+              "max_depth"), default="2.0 m", show_default=True,
               help="Maximum trench depth.")
-@click.option("--min-velocity", type=float, default=0.15, show_default=True,
+@click.option("--min-velocity", type=Number("min_velocity"), default=0.15, show_default=True,
               help="Minimum full-flow velocity, m/s (0.43 where fine sand or silt can "
                    "enter).")
-@click.option("--max-velocity", type=float, default=1.5, show_default=True,
+@click.option("--max-velocity", type=Number("max_velocity"), default=1.5, show_default=True,
               help="Maximum full-flow velocity, m/s (1.07 sand ... 2.13 clay).")
-@click.option("--ditch-water-level", type=LENGTH,
+@click.option("--ditch-water-level", type=checked("length", "ditch_water_level"),
               help="Normal water level in the receiving ditch (elevation, same datum).")
-@click.option("--outfall-margin", type=LENGTH, default="0.10 m", show_default=True,
+@click.option("--outfall-margin", type=checked("length",
+              "outfall_margin"), default="0.10 m", show_default=True,
               help="Free outfall: outlet invert above the ditch water level.")
-@click.option("--assumed-grade", type=float, default=0.1, show_default=True,
-              help="Grade used without elevations, percent.")
+@click.option("--assumed-grade", type=checked("fraction", "assumed_grade", "percent"),
+              default="0.1 %", show_default=True,
+              help="Grade used without elevations: '0.1 %' or a bare number in percent.")
 @click.option("--envelope", type=click.Choice(["none", "sock", "gravel"]), default="none",
               show_default=True, help="Envelope around the laterals, for the take-off.")
 @click.option("-o", "--output", type=click.Path(dir_okay=False), required=True,
@@ -89,22 +98,24 @@ def pipes(layout_path, coefficient, survey_path, survey_crs, survey_z_unit, dem_
 
     if not Path(layout_path).exists():
         raise InputError(f"layout file not found: {layout_path}", param="layout")
-    for t in [output, gpkg_path, plot_path]:
-        if t and Path(t).exists() and not overwrite:
-            raise InputError(f"{t} exists; use --overwrite to replace it", param="output")
+    from ..gisio import check_output_target
+
+    for t, opt in ((output, "output"), (gpkg_path, "gpkg"), (plot_path, "plot")):
+        if t:
+            check_output_target(t, overwrite=overwrite, param=opt)   # before any work
     if plot_path and not (survey_path or dem_path):
         raise InputError("profiles need elevations (--survey or --dem)", param="plot")
-    for name, v in (("capacity_factor", capacity_factor), ("min_velocity", min_velocity),
-                    ("max_velocity", max_velocity)):
-        if not v > 0:
-            raise InputError(f"must be greater than 0, got {v:g}", param=name)
+    check_order("min_grade", min_grade, "max_grade", max_grade, low_name="--min-grade",
+                high_name="--max-grade")
+    check_order("min_velocity", min_velocity, "max_velocity", max_velocity,
+                low_name="--min-velocity", high_name="--max-velocity")
     opts = PipeOptions(coefficient=coefficient, material=material, series=series,
                        method=capacity_method, capacity_factor=capacity_factor,
                        drain_depth=drain_depth, main_depth=main_depth,
-                       min_grade=min_grade / 100.0, max_grade=max_grade / 100.0,
+                       min_grade=min_grade, max_grade=max_grade,
                        min_cover=min_cover, max_depth=max_depth, min_velocity=min_velocity,
                        max_velocity=max_velocity, ditch_water_level=ditch_water_level,
-                       outfall_margin=outfall_margin, assumed_grade=assumed_grade / 100.0,
+                       outfall_margin=outfall_margin, assumed_grade=assumed_grade,
                        sizes_path=sizes_path, envelope=None if envelope == "none" else envelope)
     plan = plan_pipes(PipesInputs(layout_path=layout_path, options=opts,
                                   survey_path=survey_path, survey_crs=survey_crs,
@@ -118,26 +129,26 @@ def pipes(layout_path, coefficient, survey_path, survey_crs, survey_z_unit, dem_
 
 
 def write_pipes(plan, output, *, gpkg_path=None, plot_path=None, overwrite=False):
-    """Write the schedule CSV and optionally the GeoPackage and the profile PNG."""
-    from ..gisio import write_atomic, write_layers
+    """Write the schedule CSV and optionally the GeoPackage and the profile PNG,
+    committed together (all or none)."""
+    from ..gisio import layers_writer, write_outputs
     from ..network.plan import schedule_csv
 
     text = schedule_csv(plan.design)
-    write_atomic(output, lambda tmp: Path(tmp).write_text(text, encoding="utf-8"),
-                 overwrite=overwrite)
+    jobs = [(output, lambda tmp: Path(tmp).write_text(text, encoding="utf-8"), "output")]
     if gpkg_path:
-        write_layers(gpkg_path, plan.layers, overwrite=overwrite)
+        jobs.append((gpkg_path, layers_writer(plan.layers), "gpkg"))
     if plot_path:
-        write_profile_png(plan.design, plot_path, overwrite=overwrite)
+        jobs.append((plot_path, _profile_writer(plan.design), "plot"))
+    return write_outputs(jobs, overwrite=overwrite)
 
 
-def write_profile_png(design, path, *, overwrite=False):
+def _profile_writer(design):
     import matplotlib
 
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
 
-    from ..gisio import write_atomic
     from ..plots import key_profiles, save_figure
 
     fig, axes = plt.subplots(2, 1, figsize=(8, 6))
@@ -145,8 +156,20 @@ def write_profile_png(design, path, *, overwrite=False):
         plt.close(fig)
         raise InputError("profiles need elevations (--survey or --dem)", param="plot")
     fig.tight_layout()
-    write_atomic(path, lambda tmp: save_figure(fig, tmp), overwrite=overwrite)
-    plt.close(fig)
+
+    def writer(tmp):
+        try:
+            save_figure(fig, tmp)
+        finally:
+            plt.close(fig)
+
+    return writer
+
+
+def write_profile_png(design, path, *, overwrite=False):
+    from ..gisio import write_atomic
+
+    return write_atomic(path, _profile_writer(design), overwrite=overwrite, param="plot")
 
 
 def pipes_summary(plan):

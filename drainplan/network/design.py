@@ -377,7 +377,7 @@ def design_network(runs, carriers, options, *, surface=None, outlets=None):
             notes.append("outlet not checked: no receiving water level given "
                          "(--ditch-water-level); the outlet invert follows the design "
                          "depth")
-    elif options.ditch_water_level is not None:
+    else:
         notes.append("outlet not checked: no elevations given")
 
     # ---- reaches: laterals, then carriers split at their junctions
@@ -528,8 +528,25 @@ def design_network(runs, carriers, options, *, surface=None, outlets=None):
     }
     if len(outlet_rows) > 1:
         notes.append(f"{len(outlet_rows)} separate outlets; the outlet flow is their sum")
+    path = _main_path(car, area_in)
     design = PipeDesign(reaches, violations, takeoff, profiles, notes, totals, outlet_rows,
-                        group_problems(violations), _main_path(car, area_in))
+                        group_problems(violations), path)
+    if surface is not None and path:
+        parts, offset = [], 0.0
+        for k, cid in enumerate(path):
+            ch = car_s[cid][0]
+            L = float(car[cid].line.length)
+            if k:
+                offset += float(car[path[k - 1]].line.length) - car_jch[cid]
+            # this carrier as far up as where the next one on the path joins it
+            keep = ch >= (car_jch[path[k + 1]] - 1e-9 if k + 1 < len(path) else -1.0)
+            parts.append((offset + L - ch[keep], ground_car[cid][keep], car_z[cid][keep]))
+        d = np.concatenate([p[0] for p in parts])
+        o = np.argsort(d, kind="stable")
+        profiles["outlet up"] = {"chainage": d[o],
+                                 "ground": np.concatenate([p[1] for p in parts])[o],
+                                 "invert": np.concatenate([p[2] for p in parts])[o],
+                                 "carriers": path}
     return design
 
 
