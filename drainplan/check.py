@@ -263,7 +263,8 @@ def _read_lines(p, *, crs=None, layer=None):
 
     from .gisio import read_layer
 
-    gdf, file_crs = read_layer(p, layer=layer, crs=crs, what="proposal", option="proposal")
+    gdf, file_crs = read_layer(p, layer=layer, crs=crs, what="proposal", option="proposal",
+                               keep_z=True)
     geoms = gdf.geometry.values
     ok = np.array([g is not None and not g.is_empty and g.geom_type in
                    ("LineString", "MultiLineString") for g in geoms], bool)
@@ -395,6 +396,7 @@ def _fields_metric(p):
     keep = [i for i, g in enumerate(geoms) if g is not None]
     fields = np.array([geoms[i] for i in keep], dtype=object)
     regions = fields
+    zones = None
     if fl.get("exclusions"):
         import shapely
 
@@ -409,7 +411,11 @@ def _fields_metric(p):
             sb = np.where(np.isfinite(v) & (v >= 0), v, sb)
         zones = shapely.union_all(shapely.buffer(ex.geometry.values, sb))
         regions = shapely.difference(fields, zones)
-    return fields, regions, [ids[i] for i in keep], work_crs, file_crs
+        kinds = sorted({str(k) for k in ex["kind"]}) if "kind" in ex.columns else []
+        zones = (zones, kinds)
+    else:
+        zones = None
+    return fields, regions, zones, [ids[i] for i in keep], work_crs, file_crs
 
 
 def _outlet_point(p, work_crs, file_crs):
@@ -522,7 +528,7 @@ def check_proposal(project, proposal, *, units=None, progress=None):
     notes = list(proposal.notes)
 
     say("fields")
-    fields, regions, field_ids, work_crs, file_crs = _fields_metric(p)
+    fields, regions, zones, field_ids, work_crs, file_crs = _fields_metric(p)
     outlet = _outlet_point(p, work_crs, file_crs)
 
     # --- lines
@@ -736,6 +742,13 @@ def check_proposal(project, proposal, *, units=None, progress=None):
     if nm == 0:
         notes.append("the proposal draws no main: main sizes not checked")
 
+    stated = nums.get("lateral_spacing")
+    if stated is not None and source == "drawn" and inside.any():
+        med = float(np.nanmedian(geo.local_spacing[inside]))
+        notes.append(f"stated lateral spacing {show(stated, 'spacing', u, 1)}; measured on "
+                     f"the drawn lines: median {show(med, 'spacing', u, 1)} (the drawn "
+                     "lines are checked)")
+
     # --- spacing criteria per lateral and side
     say("spacing criteria")
     crit_list = [c for c in SPACING_CRITERIA if c.applies(p)]
@@ -887,6 +900,12 @@ def check_proposal(project, proposal, *, units=None, progress=None):
               "project minimum cover (pipes.min_cover; about 0.6 m under field traffic, "
               "common practice); outside diameter 1.15 x inside for corrugated pipe",
               mask=inside, unit="m")
+    add_check("lateral depth", "depth", depth, pp.get("max_depth", 2.0), lat_ids, True,
+              lat_fail, lambda w, ok, m: verdict_text(
+                  "lateral depth", ok, show(depth[w], "length", u, 2),
+                  show(pp.get("max_depth", 2.0), "length", u, 2), m, at_most=True),
+              "project maximum trench depth (pipes.max_depth); deeper trenches need the "
+              "protective systems in the cautions", mask=inside, unit="m")
     add_check("lateral minimum velocity", "velocity", lat_vel, vmin, lat_ids, False, lat_fail,
               lambda w, ok, m: verdict_text("lateral full-flow velocity", ok,
                                             show(lat_vel[w], "velocity", u, 2),
@@ -907,6 +926,21 @@ def check_proposal(project, proposal, *, units=None, progress=None):
                       show(vmax, "velocity", u, 2), m, at_most=True),
                   "project maximum velocity (pipes.max_velocity)", mask=main_grade_checked,
                   unit="m/s")
+    if zones is not None:
+        inside_zone = shapely.length(shapely.intersection(shapely.force_2d(lat_g), zones[0]))
+        what = ", ".join(zones[1]) or "exclusion"
+        add_check("clear of exclusion setbacks", "safety", inside_zone, 0.5, lat_ids, True,
+                  lat_fail, lambda w, ok, m: (
+                      f"perforated lateral runs {show(inside_zone[w], 'length', u, 1)} inside "
+                      f"the setback zones ({what}): "
+                      + ("meets" if ok else "fails (non-perforated pipe there, or route "
+                                            "around; follow the local well and sanitation "
+                                            "codes)")),
+                  "project exclusions and their setbacks ([fields] exclusions, "
+                  "exclusion_setback or the setback_m attribute); see the cautions",
+                  mask=inside, unit="m")
+        if pipe_entries and pipe_entries[-1]["name"] == "clear of exclusion setbacks":
+            pipe_entries[-1]["margin_pct"] = None     # a length inside: no useful ratio
     if nm:
         gap = shapely.distance(shapely.points(net.lateral_junction),
                                shapely.union_all(shapely.force_2d(main_g)))

@@ -140,7 +140,7 @@ def _swapped_hint(bounds):
     return ""
 
 
-def read_layer(path, *, layer=None, crs=None, what="fields", option="FIELDS"):
+def read_layer(path, *, layer=None, crs=None, what="fields", option="FIELDS", keep_z=False):
     """Read a vector layer: GeoJSON, GeoPackage, Shapefile (also zipped), FlatGeobuf.
 
     Parameters
@@ -154,6 +154,8 @@ def read_layer(path, *, layer=None, crs=None, what="fields", option="FIELDS"):
         Name used in messages ("fields", "exclusions").
     option : str
         Option or argument name used in messages.
+    keep_z : bool
+        Keep Z coordinates (a surveyed proposal's pipe inverts); dropped by default.
 
     Returns
     -------
@@ -198,7 +200,8 @@ def read_layer(path, *, layer=None, crs=None, what="fields", option="FIELDS"):
     if not hasattr(gdf, "geometry") or "geometry" not in getattr(gdf, "columns", []):
         raise InputError(f"{what} file {path} holds no geometries (a table without "
                          "coordinates?)", param=option)
-    gdf = _drop_z(gdf)
+    if not keep_z:
+        gdf = _drop_z(gdf)
     bounds = np.asarray(gdf.total_bounds, float) if len(gdf) else np.full(4, np.nan)
     if len(gdf) and not gdf.geometry.is_empty.all():
         if not np.all(np.isfinite(bounds)) or np.max(np.abs(bounds)) > MAX_COORDINATE:
@@ -332,13 +335,20 @@ def field_overlaps(geoms, ids, *, min_area=1.0):
 
 
 def _drop_z(gdf):
-    """Geometries without Z (elevations in a boundary are not used, and mixed 2D/3D
-    coordinates break the layout)."""
+    """Polygons without Z (elevations in a boundary are not used, and mixed 2D/3D
+    coordinates break the layout); lines and points keep theirs (a drawn pipe's Z
+    may be its invert)."""
     import shapely
 
-    geom = gdf.geometry.values
-    if len(gdf) and bool(np.any(shapely.has_z(np.asarray(geom, dtype=object)))):
-        gdf = gdf.set_geometry(shapely.force_2d(np.asarray(geom, dtype=object)), crs=gdf.crs)
+    geom = np.asarray(gdf.geometry.values, dtype=object)
+    if not len(gdf):
+        return gdf
+    poly = np.isin(shapely.get_type_id(geom), (3, 6))          # Polygon, MultiPolygon
+    hit = poly & shapely.has_z(geom)
+    if bool(np.any(hit)):
+        geom = geom.copy()
+        geom[hit] = shapely.force_2d(geom[hit])
+        gdf = gdf.set_geometry(geom, crs=gdf.crs)
     return gdf
 
 

@@ -16,16 +16,21 @@ X0, Y0 = 500000.0, 4700000.0          # UTM 15N, an invented place
 CRS = "EPSG:32615"
 
 
-def _project(tmp_path, *, falling=False, coefficient="12.7 mm/d", outlet=False):
+def _project(tmp_path, *, falling=False, coefficient="12.7 mm/d", outlet=False, well=None):
     field = shapely.box(X0, Y0, X0 + 300, Y0 + 200)
     gpd.GeoDataFrame({"field_id": ["T1"]}, geometry=[field], crs=CRS).to_file(
         tmp_path / "fields.gpkg", driver="GPKG")
+    if well is not None:
+        gpd.GeoDataFrame({"kind": ["well"], "setback_m": [30.0]},
+                         geometry=[shapely.Point(X0 + well[0], Y0 + well[1])], crs=CRS).to_file(
+            tmp_path / "exclusions.gpkg", driver="GPKG")
     text = f"""
 [site]
 name = "Invented test field"
 
 [fields]
 file = "fields.gpkg"
+{'exclusions = "exclusions.gpkg"' if well is not None else ''}
 {'outlet = [%r, %r]' % (X0 - 5, Y0 + 2) if outlet else ''}
 
 [soil]
@@ -384,3 +389,20 @@ def test_local_spacing_is_rotation_invariant():
 
     import shapely.affinity  # noqa: F401
     check()
+
+
+def test_perforated_lateral_in_a_well_setback_fails(run, tmp_path):
+    """A drawn lateral through a well's 30 m setback fails, by the length inside: the chord
+    2 sqrt(R^2 - e^2) of a circle of radius R at offset e (elementary geometry)."""
+    proj = _project(tmp_path, well=(150.0, 100.0))
+    xs = list(np.arange(10.0, 300.0, 20.0))
+    prop = _lines_file(tmp_path, xs, lateral_size="4 in", main_size="10 in")
+    out = json.loads(run("check", proj, "--proposal", prop, "--json").stdout)
+    c = next(c for c in out["criteria"] if c["name"] == "clear of exclusion setbacks")
+    assert not c["meets"]
+    inside = {x: 2 * math.sqrt(30.0 ** 2 - (x - 150.0) ** 2) for x in xs if abs(x - 150) < 30}
+    assert c["proposed"] == pytest.approx(max(inside.values()), rel=0.01)   # 32-gon circle
+    failing = {round(x["x"] - X0) for x in out["laterals"]
+               if "clear of exclusion setbacks" in x["fails"]}
+    assert failing == {round(x) for x in inside}
+    assert out["verdict"] == "fails"
