@@ -152,6 +152,9 @@ def read_layer(path, *, layer=None, crs=None, what="fields", option="FIELDS", ke
         CRS to assign when the file has none (e.g. "EPSG:4326").
     what : str
         Name used in messages ("fields", "exclusions").
+    keep_z : bool
+        Keep Z coordinates (a drawn proposal whose Z values are pipe inverts);
+        by default they are dropped (elevations in a boundary are not used).
     option : str
         Option or argument name used in messages.
     keep_z : bool
@@ -201,6 +204,7 @@ def read_layer(path, *, layer=None, crs=None, what="fields", option="FIELDS", ke
         raise InputError(f"{what} file {path} holds no geometries (a table without "
                          "coordinates?)", param=option)
     if not keep_z:
+        if not keep_z:
         gdf = _drop_z(gdf)
     bounds = np.asarray(gdf.total_bounds, float) if len(gdf) else np.full(4, np.nan)
     if len(gdf) and not gdf.geometry.is_empty.all():
