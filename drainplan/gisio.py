@@ -204,7 +204,6 @@ def read_layer(path, *, layer=None, crs=None, what="fields", option="FIELDS", ke
         raise InputError(f"{what} file {path} holds no geometries (a table without "
                          "coordinates?)", param=option)
     if not keep_z:
-        if not keep_z:
         gdf = _drop_z(gdf)
     bounds = np.asarray(gdf.total_bounds, float) if len(gdf) else np.full(4, np.nan)
     if len(gdf) and not gdf.geometry.is_empty.all():
