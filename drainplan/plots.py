@@ -425,7 +425,8 @@ def simulated_water_table(dates, depths, *, ax=None, units="metric", drain_depth
         ax.plot(t, to_display(z, "length", units), color=color, linewidth=1.1,
                 label=f"L = {to_display(L, 'spacing', units):.0f} {display_unit('spacing', units)}")
     ax.axhline(to_display(0.30, "length", units), color="#c0392b", linestyle="--",
-               linewidth=0.8, label="30 cm (SEW30)")
+               linewidth=0.8, label="SEW30 depth (11.8 in)" if units == "us"
+               else "30 cm (SEW30)")
     if drain_depth is not None:
         ax.axhline(to_display(drain_depth, "length", units), color="#555555", linestyle=":",
                    linewidth=0.8, label="drain level")
@@ -450,7 +451,8 @@ def sew30_against_spacing(spacings, sew30, *, ax=None, units="metric", target=No
     spacings : array_like
         Drain spacings [m].
     sew30 : array_like
-        SEW30 [cm d] per season (mean or worst year, as labelled by the caller).
+        SEW30 [cm d] per season (mean or worst year, as labelled by the caller); drawn in
+        in·d with ``units="us"``.
     target : float, optional
         SEW30 target [cm d].
     other : (label, values) or (label, spacings, values), optional
@@ -465,21 +467,24 @@ def sew30_against_spacing(spacings, sew30, *, ax=None, units="metric", target=No
     if ax is None:
         _, ax = plt.subplots(figsize=(4, 3))
     su = display_unit("spacing", units)
+    # SEW30 is defined in cm·d; a US sheet shows in·d
+    k, sew_u = (1 / 2.54, "in·d") if units == "us" else (1.0, "cm·d")
     L = to_display(np.asarray(spacings, float), "spacing", units)
-    ax.plot(L, sew30, marker="o", markersize=3, color="#1f5f99", linewidth=1.4,
-            label=label)
+    ax.plot(L, k * np.asarray(sew30, float), marker="o", markersize=3, color="#1f5f99",
+            linewidth=1.4, label=label)
     if other is not None:
         lo = L if len(other) == 2 else to_display(np.asarray(other[1], float), "spacing", units)
-        ax.plot(lo, other[-1], color="#888888", linestyle="--", linewidth=1.0, label=other[0])
+        ax.plot(lo, k * np.asarray(other[-1], float), color="#888888", linestyle="--",
+                linewidth=1.0, label=other[0])
     if target is not None:
-        ax.axhline(target, color="#c0392b", linestyle="--", linewidth=0.9,
-                   label=f"target {target:g} cm·d")
+        ax.axhline(k * target, color="#c0392b", linestyle="--", linewidth=0.9,
+                   label=f"target {k * target:.3g} {sew_u}")
     for (label, value), style in zip((marks or {}).items(), (":", "-.", "--")):
         if value is not None:
             ax.axvline(to_display(value, "spacing", units), color="#444444", linestyle=style,
                        linewidth=0.9, label=label)
     ax.set_xlabel(f"drain spacing ({su})")
-    ax.set_ylabel("SEW30 per season (cm·d)")
+    ax.set_ylabel(f"SEW30 per season ({sew_u})")
     ax.grid(True, color="#dddddd", linewidth=0.5)
     ax.legend(fontsize=7, frameon=False)
     if title:
