@@ -604,7 +604,23 @@ def check_proposal(project, proposal, *, units=None, progress=None):
 
     # --- depth and radius of each lateral
     design_depths = p.drains["depth"]
-    depth = lat_rows["depth_m"].to_numpy(float)
+    depth = lat_rows["depth_m"].to_numpy(float).copy()
+    if has_z and surface is not None:
+        # surveyed inverts under surveyed ground: the depth as installed (mean along it)
+        n_z = 0
+        for i in np.flatnonzero(np.isnan(depth) & inside):
+            if shapely.has_z(lat_g[i]):
+                c = shapely.get_coordinates(lat_g[i], include_z=True)
+                depth[i] = float(np.mean(elev(c[:, :2]) - c[:, 2]))
+                n_z += 1
+        if n_z:
+            notes.append(f"{n_z} lateral depth(s) from the surveyed ground above the lines' "
+                         "Z values (mean along each lateral)")
+            bad = np.flatnonzero(inside & ~(depth > 0))
+            if bad.size:
+                raise InputError(f"lateral {lat_ids[bad[0]]}: its Z "
+                                 "values lie above the surveyed ground (Z must be the pipe "
+                                 "invert, in the survey's datum)", param="proposal")
     default_depth = nums.get("depth")
     if default_depth is None and len(design_depths) == 1:
         default_depth = design_depths[0]
