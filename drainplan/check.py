@@ -575,16 +575,16 @@ def check_proposal(project, proposal, *, units=None, progress=None):
             return np.asarray(surface(np.asarray(xy, float)), float)
     net = join_network(shapely.force_2d(lat_g), shapely.force_2d(main_g),
                        tolerance=JOIN_TOLERANCE, outlet=outlet_pts, elevation_of=elev)
+    free = np.flatnonzero(net.lateral_main < 0)
     if source == "numbers" and main_g.size:
-        # layout pieces reach their main through connectors: join by field
+        # layout pieces reach their main through connectors or sub-mains: join by field
         hint_main = {h: i for i, h in enumerate(main_rows["field_hint"])}
         for i, h in enumerate(lat_rows["field_hint"]):
             if net.lateral_main[i] < 0 and h in hint_main:
                 net.lateral_main[i] = hint_main[h]
-    free = np.flatnonzero(net.lateral_main < 0)
     if free.size and (has_z or elev is not None):
-        # a lateral that reaches no main drains to its lower end (its Z values, or the
-        # ground)
+        # a lateral that reaches no main directly drains to its lower end (its Z values,
+        # or the ground)
         za, zb = np.full(free.size, np.nan), np.full(free.size, np.nan)
         for k, i in enumerate(free):
             g = lat_g[i]

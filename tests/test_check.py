@@ -438,3 +438,26 @@ def test_depth_from_surveyed_ground_and_inverts(run, tmp_path):
         tmp_path / "zb.gpkg", driver="GPKG")
     r = run("check", proj, "--proposal", tmp_path / "zb.gpkg")
     assert r.exit_code == 2 and "above the surveyed ground" in r.stderr
+
+
+def test_design_numbers_meet_every_criterion(tmp_path):
+    """The numbers of drainplan's own design (spacing, depth, largest lateral and main
+    sizes, the radius used) make a proposal that meets every criterion."""
+    from drainplan.check import check_proposal, read_proposal
+    from drainplan.design import design
+    from drainplan.project import load_project
+
+    proj = load_project(_project(tmp_path, falling=True, outlet=True))
+    res = design(proj)
+    d = res.summary["design"]
+    reaches = res.pipes_plan.design.reaches
+    lat = max((r for r in reaches if r["kind"] == "lateral"), key=lambda r: r["flow_l_s"])
+    main = max((r for r in reaches if r["kind"] == "main"), key=lambda r: r["flow_l_s"])
+    (tmp_path / "n.toml").write_text(
+        f'[proposal]\nlateral_spacing = "{d["spacing_m"]} m"\ndepth = "{d["drain_depth_m"]} m"\n'
+        f'lateral_size = "{lat["size"]}"\nmain_size = "{main["size"]}"\n'
+        f'envelope = "sock-4in"\n')
+    out = check_proposal(proj, read_proposal(tmp_path / "n.toml")).summary
+    assert out["verdict"] == "meets", [c["text"] for c in out["criteria"] if not c["meets"]]
+    assert {"steady", "falling", "lateral capacity", "main capacity"} <= {
+        c["name"] for c in out["criteria"]}
