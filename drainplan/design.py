@@ -534,17 +534,22 @@ def _figure_data(p, depth, spacing, r, method):
 
 
 def _soil_notes(p, depth, method):
+    from .units import show
+
+    u = p.report.get("units", "metric")
+    kd = 3 if u == "us" else 2
     s = _soil_at(p, depth)
     notes = []
     if "layers" in p.soil:
         notes.append(f"{len(p.soil['layers'])}-layer profile reduced at the drain depth "
-                     f"{depth:g} m by thickness-weighted means: K above {s['k_above']:.3g} "
-                     f"m/d, K below {s['k_below']:.3g} m/d"
+                     f"{show(depth, 'length', u, 2)} by thickness-weighted means: K above "
+                     f"{show(s['k_above'], 'conductivity', u, kd)}, K below "
+                     f"{show(s['k_below'], 'conductivity', u, kd)}"
                      + (f", drainable porosity {s['drainable_porosity']:.3g}"
                         if s.get("drainable_porosity") is not None else ""))
     if method == "glover-dumm" and "k_below" in s:
         notes.append(f"falling water table computed with K below drain level "
-                     f"({s['k_below']:.3g} m/d)")
+                     f"({show(s['k_below'], 'conductivity', u, kd)})")
     return notes
 
 
@@ -596,10 +601,11 @@ def _summary(p, table, depth, spacing, raw_spacing, governing, method, compariso
                   "capacity_factor": _f(p.pipes.get("capacity_factor", 0.75), 4),
                   "series": p.pipes.get("series", "metric")},
     }
-    outlet_flow = {}
+    outlet_flow = {}          # per field, as the total: the flow of its laterals
     for row in pd.reaches:
-        fid = str(row.get("field_id"))
-        outlet_flow[fid] = max(outlet_flow.get(fid, 0.0), float(row.get("flow_l_s") or 0.0))
+        if row["kind"] == "lateral":
+            fid = str(row.get("field_id"))
+            outlet_flow[fid] = outlet_flow.get(fid, 0.0) + float(row.get("flow_l_s") or 0.0)
     fields = [{**f, "spacing_m": _f(spacing, 3),
                "outlet_flow_l_s": _f(outlet_flow.get(str(f["field_id"])), 3)}
               for f in lp.per_field]
