@@ -134,6 +134,7 @@ def load_batch_settings(path):
             soil["barrier_depth"] = sum(ly["thickness"] for ly in soil["layers"])
         out.pop("fields", None)
         out.pop("report", None)
+        out.pop("simulation", None)          # batches do not run the season simulation
     crit = out["criteria"]
     steady = "recharge" in crit or "water_table_depth" in crit
     falling = any(k in crit for k in ("initial_depth", "final_depth", "days"))
