@@ -325,15 +325,12 @@ def design(project, *, progress=None):
                                                                   falling)
     summary["design"]["notes"] += extra_notes
     summary["design"]["warnings"] = text_warnings + summary["design"]["warnings"]
-<<<<<<< HEAD
     _add_uncertainty(summary, figures, p, unc, spacing, deterministic_spacing)
-=======
     if "weather" in p.simulation:
         say("season simulation")
         summary["simulation"], figures["simulation"] = _season_simulation(
             p, depth, spacing, raw_spacing, coef, lp)
         summary["references"] += SIMULATION_REFERENCES
->>>>>>> main
     return DesignResult(p, summary, lp, pipes_plan, figures)
 
 
