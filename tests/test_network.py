@@ -282,3 +282,19 @@ def test_demo_pipes_mass_balance_and_takeoff(run, demo_layout, tmp_path):
                 (t["size"].startswith("tee") or t["size"].startswith("coupling")))
     assert n_tee >= len(lat)
     assert sum(t["count"] for t in job if "animal guard" in t["size"]) == 1
+
+
+def test_power_law_outside_its_range_is_said_once_per_kind():
+    # enough flow that the main needs more than 200 mm: the power law (fitted to field
+    # drain pipes of about 40-200 mm, Cavelaars et al. 1994, ILRI Publ. 16 ch. 21,
+    # recalled) is flagged there, once in the grouped problems
+    runs, car = comb()
+    d = design_network(runs, car, PipeOptions(coefficient=0.08, method="power-law",
+                                              max_depth=3.0),
+                       surface=lambda xy: np.full(len(xy), 50.0))
+    flagged = [v for v in d.violations if v["kind"] == "power law range"]
+    big = [r for r in d.reaches if (r.get("inner_diameter_mm") or 0) > 200]
+    assert big and len(flagged) == len(big)
+    assert sum("power-law capacity used outside" in g for g in d.problem_summary) == 1
+    # the usable share of the full capacity travels with every reach
+    assert all(r["usable_capacity_pct"] == 75.0 for r in d.reaches)
