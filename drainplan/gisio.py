@@ -332,13 +332,20 @@ def field_overlaps(geoms, ids, *, min_area=1.0):
 
 
 def _drop_z(gdf):
-    """Geometries without Z (elevations in a boundary are not used, and mixed 2D/3D
-    coordinates break the layout)."""
+    """Polygons without Z (elevations in a boundary are not used, and mixed 2D/3D
+    coordinates break the layout); lines and points keep theirs (a drawn pipe's Z
+    may be its invert)."""
     import shapely
 
-    geom = gdf.geometry.values
-    if len(gdf) and bool(np.any(shapely.has_z(np.asarray(geom, dtype=object)))):
-        gdf = gdf.set_geometry(shapely.force_2d(np.asarray(geom, dtype=object)), crs=gdf.crs)
+    geom = np.asarray(gdf.geometry.values, dtype=object)
+    if not len(gdf):
+        return gdf
+    poly = np.isin(shapely.get_type_id(geom), (3, 6))          # Polygon, MultiPolygon
+    hit = poly & shapely.has_z(geom)
+    if bool(np.any(hit)):
+        geom = geom.copy()
+        geom[hit] = shapely.force_2d(geom[hit])
+        gdf = gdf.set_geometry(geom, crs=gdf.crs)
     return gdf
 
 
