@@ -88,7 +88,7 @@ def text_report(s, units):
         lines.append(f"  [ --- ] {n['name']}: not checked ({n['reason']})")
     bad = [x for x in s["laterals"] if not x["meets"]]
     if bad:
-        lines.append("Failing laterals (first 15)")
+        lines.append(f"Failing laterals (first 15 of {len(bad)}; places in {s['work_crs']})")
         for x in bad[:15]:
             lines.append(f"  {x['lateral_id']:<14} field {x['field_id']}, local spacing "
                          f"{show(x['local_spacing_m'], 'spacing', units, 1)}, fails: "

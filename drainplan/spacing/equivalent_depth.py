@@ -27,10 +27,27 @@ __all__ = ["EQUIVALENT_DEPTH_METHODS", "molen_wesseling_f", "equivalent_depth",
 EQUIVALENT_DEPTH_METHODS = ("series", "moody")
 
 # Switch point between the two series for F(x): both use the same ratio there,
-# exp(-2x) = exp(-pi^2/x)  <=>  x = pi / sqrt(2); the ratio is then 0.0118, so
-# six terms give a truncation error below 1e-13 (relative).
+# exp(-2x) = exp(-pi^2/x)  <=>  x = pi / sqrt(2); the ratio t is then 0.0118.
 _X_SWITCH = np.pi / np.sqrt(2.0)
-_N_TERMS = 6
+
+# F as power series in t (the products of the published series expanded; see
+# molen_wesseling_f): for x > switch, t = exp(-2x) and F = 4 sum c_m t^m with
+# c_m = sum over odd k dividing m of 1/k; for x <= switch, t = exp(-pi^2/x) and
+# F = pi^2/(4x) + ln(x/(2 pi)) - 2 sum e_m t^m with
+# e_m = (1/m) sum over n dividing m of (-1)^(n+1) n.
+_C = (1.0, 1.0, 4 / 3, 1.0, 6 / 5, 4 / 3, 8 / 7, 1.0, 13 / 9, 6 / 5)
+_E = (1.0, -1 / 2, 4 / 3, -5 / 4, 6 / 5, -2 / 3, 8 / 7, -13 / 8, 13 / 9, -3 / 5)
+# Eight terms at t <= 0.0118 leave a truncation error below 1e-16.
+_N_TERMS = 8
+
+
+def _horner(t, coefs):
+    """sum_{m>=1} coefs[m-1] t^m."""
+    acc = coefs[-1] * t
+    for c in coefs[-2::-1]:
+        acc += c
+        acc *= t
+    return acc
 
 
 def molen_wesseling_f(x):
@@ -68,7 +85,11 @@ def molen_wesseling_f(x):
 
     Here the small-x form plus that remainder is used for ``x <= pi/sqrt(2)``
     and the direct series above it; both ratios are below 0.012 on their side
-    of the switch, so six terms reach an absolute error near 1e-15 everywhere.
+    of the switch. Expanding the logarithms of the products gives power series
+    in the ratio t, ``F = 4 sum c_m t^m`` (large x, t = exp(-2x),
+    ``c_m = sum_{odd k | m} 1/k``) and remainder ``-2 sum e_m t^m`` (small x,
+    t = exp(-pi^2/x), ``e_m = (1/m) sum_{n | m} (-1)^(n+1) n``); eight terms
+    reach an absolute error near 1e-16 everywhere, evaluated by Horner's rule.
 
     References
     ----------
@@ -85,23 +106,11 @@ def molen_wesseling_f(x):
     x = np.asarray(x, dtype=float)
     with np.errstate(divide="ignore", over="ignore", invalid="ignore"):
         small = x <= _X_SWITCH
-        # One ratio per case: p = exp(-pi^2/x) on the small side, q = exp(-2x)
-        # on the large side. With A(z) = prod(1 - z^n) and B(z) = prod(1 - z^2n),
-        #   small x:  remainder = 2 ln(A(p) / B(p)^2)
-        #   large x:  F         = 2 ln(B(q) / A(q)^2)   (= 2 sum ln coth(n x))
-        z = np.exp(np.where(small, -np.pi**2 / x, -2.0 * x))
-        z2 = z * z
-        zn = z
-        a = 1.0 - z
-        b = 1.0 - z2
-        z2n = z2
-        for _ in range(1, _N_TERMS):
-            zn = zn * z
-            z2n = z2n * z2
-            a *= 1.0 - zn
-            b *= 1.0 - z2n
-        out = 2.0 * np.log(np.where(small, a / (b * b), b / (a * a)))
-        out = out + np.where(small, np.pi**2 / (4.0 * x) + np.log(x / (2.0 * np.pi)), 0.0)
+        t = np.exp(np.where(small, -np.pi**2 / x, -2.0 * x))
+        large_f = 4.0 * _horner(t, _C[:_N_TERMS])
+        small_f = (np.pi**2 / (4.0 * x) + np.log(x / (2.0 * np.pi))
+                   - 2.0 * _horner(t, _E[:_N_TERMS]))
+        out = np.where(small, small_f, large_f)
     out = np.where(x > 0, out, np.nan)
     return out[()] if out.ndim == 0 else out
 
@@ -241,3 +250,316 @@ def _equivalent_depth_unchecked(L, D, r0, method="series"):
         # F = inf and so d = 0.)
         d = np.where(d >= 0.0, np.minimum(d, D), D)
     return d[()] if d.ndim == 0 else d
+
+
+# ---------------------------------------------------------------------------
+# Spacing solver shared by Hooghoudt, Glover-Dumm and Kirkham.
+#
+# Each of them is   L^2 = A L / W(L) + B,   d = pi L / (8 W) the equivalent depth
+# (Hooghoudt: A = pi K2 h / q, B = 4 K1 h^2 / q; see the callers), i.e. the root of
+#     G(L) = W(L) (L - B / L) - A,
+# which increases with L. W = ln(L / (pi r0)) + F(2 pi D / L) is smooth and slowly
+# varying, so G is nearly linear: from a closed-form estimate (within ~20 %), one
+# Halley step with two terms of the series for F and one with all of them reach
+# the root to rounding (the predicted error of the second step stops it).
+# ---------------------------------------------------------------------------
+_PI = np.pi
+_C1 = tuple(m * c for m, c in enumerate(_C[:4], 1))      # derivative series, 4 terms
+_C2 = tuple(m * m * c for m, c in enumerate(_C[:3], 1))  # second derivative, 3 terms
+_E1 = tuple(m * e for m, e in enumerate(_E[:4], 1))
+#: The series of a case is chosen once, from its estimate; with nine terms it is
+#: exact to rounding while its ratio t stays below this (the estimate is close
+#: enough that it always does in practice; a case where it does not is solved
+#: by the bracketed solver).
+_T_VALID = 0.03
+_LN_T_VALID = float(np.log(_T_VALID))
+#: Cases per block of the spacing solver: 16384 (128 KiB per array) was the
+#: fastest size on the 2-core test machine (Python's cost per array operation
+#: against the cache and the C library's cost of fresh pages for larger arrays).
+_CASES_PER_BLOCK = 16384
+
+
+def _w_small(L, inv_d, gamma, terms):
+    """W, W', W'' for x <= switch: W = ln(D/(pi r0)) + pi L/(8 D) + R, R = -2 sum e_m t^m,
+    t = exp(-pi L/(2 D)) (W'' keeps the first term of R only)."""
+    s = L * inv_d
+    t = np.exp((-0.5 * _PI) * s)
+    if terms > 2:
+        w = gamma + (0.125 * _PI) * s - 2.0 * _horner(t, _E[:terms])
+        w1 = inv_d * (0.125 * _PI + _PI * _horner(t, _E1))
+    else:
+        w = gamma + (0.125 * _PI) * s - 2.0 * t + t * t
+        w1 = inv_d * (0.125 * _PI + _PI * t)
+    w2 = (-0.5 * _PI * _PI) * (inv_d * inv_d) * t
+    return w, w1, w2
+
+
+def _w_large(L, two_pi_d, ln_pr, terms):
+    """W, W', W'' for x > switch: W = ln(L/(pi r0)) + 4 sum c_m t^m, t = exp(-2x)
+    (W'' with three terms of the series)."""
+    inv_l = 1.0 / L
+    x = two_pi_d * inv_l
+    t = np.exp(-2.0 * x)
+    if terms > 2:
+        w = np.log(L) - ln_pr + 4.0 * _horner(t, _C[:terms])
+        xq = (8.0 * x) * _horner(t, _C1)
+        q2 = _horner(t, _C2)
+    else:
+        w = np.log(L) - ln_pr + 4.0 * t * (1.0 + t)
+        xq = (8.0 * x) * t
+        q2 = t
+    w1 = (1.0 + xq) * inv_l
+    w2 = (-1.0 - 2.0 * xq + 16.0 * x * x * q2) * (inv_l * inv_l)
+    return w, w1, w2
+
+
+def _kirkham_e2_small(L, D, r):
+    """2E (the finite-radius part of Kirkham's series) and its slope, x <= switch
+    (the slope of the sum over n to first order in p)."""
+    theta = _PI * r / L
+    y = 0.5 * _PI * r / D
+    p = np.exp(np.maximum(-_PI * L / D, -700.0))
+    ch = np.cosh(2.0 * y)
+    prod = np.ones_like(L)
+    pn = np.ones_like(L)
+    for _ in range(5):
+        pn = pn * p
+        prod *= (1.0 - 2.0 * pn * ch + pn * pn) / ((1.0 - pn) * (1.0 - pn))
+    e2 = (np.log(2.0 * D / (L * np.sin(theta))) + np.log(np.sinh(y))
+          - 0.5 * _PI * r * r / (D * L) + np.log(prod))
+    g = theta / np.tan(theta) - 1.0
+    inv_l = 1.0 / L
+    slope = (g + 0.5 * _PI * r * r / D * inv_l) * inv_l + 2.0 * (ch - 1.0) * (_PI / D) * p
+    return e2, slope, None
+
+
+def _kirkham_e2_large(L, D, r):
+    """2E and its slope, x > switch: sum_k ln(1 + v_k), v_k = 4 sin^2(pi r/L) w/(1 - w)^2,
+    w = exp(-2 k x) (nine terms)."""
+    theta = _PI * r / L
+    inv_l = 1.0 / L
+    x = 2.0 * _PI * D * inv_l
+    z = np.exp(np.maximum(-2.0 * x, -700.0))
+    s2 = np.sin(theta) ** 2
+    ds2 = -theta * np.sin(2.0 * theta) * inv_l          # d sin^2(theta) / dL
+    kx = 2.0 * x * inv_l                                 # d ln(w) / dL = k kx
+    e2 = np.zeros_like(L)
+    slope = np.zeros_like(L)
+    w = np.ones_like(L)
+    for k in range(1, 10):
+        w = w * z
+        c = 4.0 * w / ((1.0 - w) * (1.0 - w))
+        v = c * s2
+        e2 += np.log1p(v)
+        slope += c * (ds2 + s2 * (k * kx) * (1.0 + w) / (1.0 - w)) / (1.0 + v)
+    return e2, slope, None
+
+
+def _kirkham_e2(L, D, r):
+    """2E for any x (each case by the series of its side of the switch), value only."""
+    L, D, r = np.broadcast_arrays(*(np.asarray(v, float) for v in (L, D, r)))
+    out = np.empty(L.shape)
+    small = 2.0 * _PI * D <= _X_SWITCH * L
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore", under="ignore"):
+        out[small] = _kirkham_e2_small(L[small], D[small], r[small])[0]
+        out[~small] = _kirkham_e2_large(L[~small], D[~small], r[~small])[0]
+    return out
+
+
+def _spacing_estimate(A, B, D, pr, L_D):
+    """Closed-form estimate of the root of L^2 = A L / W(L) + B (within ~20 %).
+
+    The smaller of two spacings: the deep-barrier one (W = ln(L/(pi r0)), the
+    asymptotic solution of L ln(L/(pi r0)) = A, then the quadratic in L with
+    that W) and one fixed-point step from the d = D spacing L_D with the
+    shallow-barrier form d = D L / (L + (8/pi) D ln(D/(pi r0))).
+    """
+    lb = np.log(np.maximum(A / pr, 3.0))
+    llb = np.log(lb)
+    b = A / np.maximum(lb - llb + llb / lb, 1.0)
+    L_deep = 0.5 * (b + np.sqrt(b * b + 4.0 * B))
+    lam = (8.0 / _PI) * D * np.log(D / pr)
+    d_s = D * L_D / (L_D + np.maximum(lam, 0.0))
+    return np.minimum(L_deep, np.sqrt((8.0 / _PI) * A * d_s + B))
+
+
+def _flat(*arrays):
+    """Broadcast and flatten; an input of one value stays a 0-d array (cheap to index)."""
+    arrays = np.broadcast_arrays(*arrays)
+    shape = arrays[0].shape
+    out = []
+    for a in arrays:
+        if a.ndim and all(st == 0 for st in a.strides):
+            out.append(np.asarray(a.flat[0]))        # a broadcast single value
+        else:
+            out.append(np.ravel(a))
+    return shape, out
+
+
+def _take(values, sel):
+    """The cases ``sel`` (slice or index array) of each array; single values as they are."""
+    return [v[sel] if v.ndim else v for v in values]
+
+
+def _solve_spacing(n, prepare, bracket, exact, *, method="series", cap=True, kirkham=False,
+                   xtol=1e-6, what="spacing"):
+    """Roots of L^2 = A L / W(L) + B for n cases, block by block.
+
+    ``prepare(sel) -> (A, B, D, r0, lo, hi)`` for the cases ``sel`` (a slice or
+    an index array), with ``lo`` the narrowest spacing allowed and ``hi`` the
+    widest, or None for the d = D spacing L_D = sqrt(8 A D / pi + B) (the
+    bound when ``cap``: d = pi L / (8 W) is limited to D, as in Hooghoudt and
+    Glover-Dumm, so cases whose d would exceed D have the root L_D).
+    Those cases, drains on the barrier, roots outside the bounds and any case
+    Halley cannot finish go to the bracketed solver on ``exact(L, idx)``, the
+    caller's own equation (value only, increasing in L) for the cases ``idx``,
+    between the ends ``bracket(idx) -> (lo, hi)``. ``kirkham``: W is Kirkham's
+    pi F_K (the series W less its finite-radius part 2E), not capped.
+    """
+    from .._solve import _chandrupatla_block, _in_blocks
+
+    root = np.empty(n)
+    rest = []
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore", under="ignore"):
+        for start in range(0, n, _CASES_PER_BLOCK):
+            sl = slice(start, min(start + _CASES_PER_BLOCK, n))
+            m = sl.stop - sl.start
+            A, B, D, r0, lo, hi = (v if v is None or np.shape(v) == (m,)
+                                   else np.broadcast_to(v, (m,)) for v in prepare(sl))
+            L, good = _solve_block(A, B, D, r0, lo, hi, method, cap, kirkham, xtol)
+            root[sl] = L
+            if not good.all():
+                rest.append(start + np.flatnonzero(~good))
+    if rest:
+        rest = np.concatenate(rest)
+        lo, hi = (np.broadcast_to(v, rest.shape) for v in bracket(rest))
+        res = _in_blocks(_chandrupatla_block, lambda L, i: exact(L, i.astype(np.intp)), lo,
+                         hi, [rest.astype(float)], xtol, 1e-12, 100, what, total=n,
+                         stacklevel=4)
+        root[rest] = res.root
+    return root
+
+
+def _solve_block(A, B, D, r0, lo, hi, method, cap, kirkham, xtol):
+    """One block: estimate, one cheap Halley step, then Halley to convergence."""
+    from .._solve import newton_block
+
+    n = A.size
+    root = np.full(n, np.nan)
+    done = np.zeros(n, dtype=bool)
+    pr = _PI * r0
+    L_D = np.sqrt((8.0 / _PI) * A * D + B)
+    gamma = np.log(D / pr)
+    # d reaches D only for a barrier within about pi r0 of the drains (or no
+    # barrier depth at all), or spacings within a few radii: those go to the
+    # bracketed solver.
+    ok = (gamma > 0.05) & (L_D > 12.0 * r0) if cap else np.ones(n, dtype=bool)
+    if hi is None:
+        hi = L_D * (1.0 + 1e-9)
+    L0 = np.minimum(np.maximum(_spacing_estimate(A, B, D, pr, L_D), lo), hi)
+    small = (2.0 * _PI * D <= _X_SWITCH * L0) if method == "series" else (D <= 0.3 * L0)
+    for branch in (True, False):
+        sel = ok & small if branch else ok & ~small
+        if sel.all():
+            idx = slice(None)
+        else:
+            idx = np.flatnonzero(sel)
+            if not idx.size:
+                continue
+        Ab, Bb, x = A[idx], B[idx], L0[idx]
+        Db = D[idx]
+        wargs = _w_args(branch, method, kirkham, Db, r0[idx], gamma[idx])
+        prev = None
+        if method == "series" and not kirkham:
+            # one Halley step with two terms of the series (cheap, ~1e-3 close)
+            g, g1, g2 = _g(_w_func(branch, method, kirkham, 2), x, Ab, Bb, wargs)
+            step = g / (g1 - 0.5 * g * g2 / g1)
+            x = x - step
+            prev = np.abs(step)
+        func = _w_func(branch, method, kirkham, 9)
+        L, good, _ = newton_block(lambda L, A, B, *wa: _g(func, L, A, B, wa), x, None,
+                                  None, (Ab, Bb, *wargs), xtol=xtol, rtol=0.0,
+                                  maxiter=8, prev=prev)
+        # the series chosen from the estimate must still be exact at the root
+        if method == "series":
+            if branch:
+                good &= (-0.5 * _PI) * L <= _LN_T_VALID * Db
+            else:
+                good &= (-4.0 * _PI) * Db <= _LN_T_VALID * L
+        else:
+            good &= (Db <= 0.3 * L) == branch
+        root[idx] = L
+        done[idx] = good
+    done &= (root >= lo) & (root <= hi)
+    if cap:
+        # d = pi (L^2 - B) / (8 A) at the root of G: above D if L passes L_D, and
+        # then the root is L_D itself (the bracketed solver finds it)
+        done &= root <= L_D
+    if method == "moody":
+        # Moody's d jumps up where D/L passes 0.3 (W drops by 0.021); when the
+        # equation changes sign down across that jump it has a root on each
+        # side, and the bracketed solver picks one as it always did.
+        Lj = D / 0.3
+        u = Lj - B / Lj
+        w_deep = np.log(Lj / r0) - 1.15
+        w_shallow = (0.125 * _PI) * (1.0 / 0.3 + (8.0 / _PI) * np.log(D / r0) - 3.55
+                                     + 1.6 * 0.3 - 2.0 * 0.09)
+        done &= ~((Lj > lo) & (Lj < hi) & (w_deep * u > A) & (w_shallow * u < A))
+    return root, done
+
+
+def _g(wfun, L, A, B, wargs):
+    """G = W (L - B/L) - A and its first two derivatives (the first only if wfun
+    gives W and W' only)."""
+    out = wfun(L, *wargs)
+    w, w1 = out[0], out[1]
+    inv_l = 1.0 / L
+    bl = B * inv_l
+    u = L - bl
+    u1 = 1.0 + bl * inv_l
+    if len(out) == 2:
+        return w * u - A, w1 * u + w * u1
+    return (w * u - A, w1 * u + w * u1,
+            out[2] * u + 2.0 * w1 * u1 - 2.0 * w * bl * inv_l * inv_l)
+
+
+def _w_args(small, method, kirkham, D, r0, gamma):
+    if method == "moody":
+        return (1.0 / D, (8.0 / _PI) * np.log(D / r0) - 3.55) if small else (np.log(r0),)
+    extra = (D, r0) if kirkham else (0.0, 0.0)
+    if small:
+        return (1.0 / D, gamma, *extra)
+    return (2.0 * _PI * D, np.log(_PI * r0), *extra)
+
+
+def _w_func(small, method, kirkham, terms):
+    """W(L, *args) -> (W, W', W'') for one branch of one method."""
+    if method == "moody":
+        if small:                    # D/L <= 0.3: W = (pi/8)(L/D + (8/pi) ln(D/r0) - alpha)
+            def wfun(L, inv_d, c):
+                inv_s = 1.0 / (L * inv_d)
+                k = 0.125 * _PI
+                w = k * (L * inv_d + c + 1.6 * inv_s - 2.0 * inv_s * inv_s)
+                w1 = k * inv_d * (1.0 - 1.6 * inv_s * inv_s + 4.0 * inv_s ** 3)
+                w2 = k * inv_d * inv_d * (3.2 * inv_s ** 3 - 12.0 * inv_s ** 4)
+                return w, w1, w2
+        else:                        # D/L > 0.3: W = ln(L/r0) - 1.15
+            def wfun(L, ln_r):
+                inv_l = 1.0 / L
+                return np.log(L) - ln_r - 1.15, inv_l, -inv_l * inv_l
+        return wfun
+    if small:
+        def wfun(L, inv_d, gamma, D, r0):
+            w, w1, w2 = _w_small(L, inv_d, gamma, terms)
+            if kirkham:           # Newton: W' in closed form, W'' not needed
+                e2, e2s, _ = _kirkham_e2_small(L, D, r0)
+                return w - e2, w1 - e2s
+            return w, w1, w2
+    else:
+        def wfun(L, two_pi_d, ln_pr, D, r0):
+            w, w1, w2 = _w_large(L, two_pi_d, ln_pr, terms)
+            if kirkham:
+                e2, e2s, _ = _kirkham_e2_large(L, D, r0)
+                return w - e2, w1 - e2s
+            return w, w1, w2
+    return wfun

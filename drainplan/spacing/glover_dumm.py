@@ -5,10 +5,10 @@ from __future__ import annotations
 
 import numpy as np
 
-from .._solve import bracketed_root
 from .._validate import (as_float_arrays, require_positive, require_nonnegative,
                         require_radius_below_barrier, scalar_or_array)
-from .equivalent_depth import EQUIVALENT_DEPTH_METHODS, _equivalent_depth_unchecked
+from .equivalent_depth import (EQUIVALENT_DEPTH_METHODS, _equivalent_depth_unchecked, _flat,
+                               _solve_spacing, _take)
 from ..errors import InputError
 
 __all__ = ["INITIAL_SHAPES", "FLOW_DEPTHS", "DUMM_COEFFICIENT", "GLOVER_COEFFICIENT",
@@ -280,8 +280,10 @@ def glover_dumm_spacing(*, initial_head, final_head, time, k, drainable_porosity
 
         L = pi sqrt( K D t / (mu ln(c y0 / yt)) )
 
-    with D = d(L) or d(L) + y0/2, solved for L with the shared bracketed
-    solver. It is accurate once alpha t = pi^2 K D t / (mu L^2) exceeds about
+    with D = d(L) or d(L) + y0/2, solved for L like Hooghoudt's equation
+    (``L^2 = A L / W + B`` with d = pi L / (8 W): a closed-form estimate and
+    two Halley steps, the bracketed solver for the few cases they cannot
+    finish). It is accurate once alpha t = pi^2 K D t / (mu L^2) exceeds about
     0.2 (yt/y0 below about 0.85); use :func:`glover_dumm_head` to check early
     times.
 
@@ -329,13 +331,24 @@ def glover_dumm_spacing(*, initial_head, final_head, time, k, drainable_porosity
     c = INITIAL_SHAPES[shape]
     factor = K * t / (mu * np.log(c * y0 / yt))          # L^2 = pi^2 factor D, Eq. (4.1)
     extra = 0.5 * y0 if plus_half else np.zeros_like(y0)
+    shape_, inputs = _flat(factor, D, r0, extra)
 
-    def f(L, factor, D, r0, extra):
+    def prepare(sel):
+        # L^2 = pi^2 factor (d + extra) with d = pi L / (8 W): L^2 = A L / W + B
+        factor, D, r0, extra = _take(inputs, sel)
+        return (np.pi**3 / 8.0) * factor, np.pi**2 * factor * extra, D, r0, \
+            np.pi * r0 * (1.0 + 1e-6), None
+
+    def bracket(sel):
+        factor, D, r0, extra = _take(inputs, sel)
+        return np.pi * r0 * (1.0 + 1e-6), np.pi * np.sqrt(factor * (D + extra)) * (1.0 + 1e-9)
+
+    def f(L, i):
+        factor, D, r0, extra = _take(inputs, i)
         d = _equivalent_depth_unchecked(L, D, r0, equivalent_depth_method)
         return L * L - np.pi**2 * factor * (d + extra)
 
-    lo = np.pi * r0 * (1.0 + 1e-6)
-    hi = np.pi * np.sqrt(factor * (D + extra)) * (1.0 + 1e-9)
-    res = bracketed_root(f, lo, hi, (factor, D, r0, extra), xtol=xtol,
-                         what="Glover-Dumm spacing")
-    return scalar_or_array(res.root)
+    n = int(np.prod(shape_))
+    L = _solve_spacing(n, prepare, bracket, f, method=equivalent_depth_method, xtol=xtol,
+                       what="Glover-Dumm spacing")
+    return scalar_or_array(L.reshape(shape_))

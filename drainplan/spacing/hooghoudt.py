@@ -9,10 +9,10 @@ from __future__ import annotations
 
 import numpy as np
 
-from .._solve import bracketed_root
 from .._validate import (as_float_arrays, require_positive, require_nonnegative,
                         require_radius_below_barrier, scalar_or_array)
-from .equivalent_depth import (EQUIVALENT_DEPTH_METHODS, _equivalent_depth_unchecked)
+from .equivalent_depth import (EQUIVALENT_DEPTH_METHODS, _equivalent_depth_unchecked,
+                               _flat, _solve_spacing, _take)
 from ..errors import InputError
 
 __all__ = ["hooghoudt_spacing", "hooghoudt_head", "hooghoudt_recharge"]
@@ -77,10 +77,16 @@ def hooghoudt_spacing(*, recharge, head, k_below, depth_to_barrier, drain_radius
 
         q L^2 = 8 K2 d h + 4 K1 h^2
 
-    with d = d(L, D, r0), so L is found by bracketed root finding on
+    with d = d(L, D, r0), so L is found as the root of
     ``f(L) = q L^2 - 8 K2 d(L) h - 4 K1 h^2`` between the Donnan spacing
     ``sqrt(4 K1 h^2 / q)`` (d = 0) and ``sqrt((8 K2 D h + 4 K1 h^2) / q)``
-    (d = D). With D = 0 it reduces to the Donnan (Colding) form
+    (d = D): writing d = pi L / (8 W) with W = ln(L / (pi r0)) + F, the
+    equation is ``W (L - B/L) = A`` with A = pi K2 h / q and B = 4 K1 h^2 / q,
+    which two Halley steps solve from a closed-form estimate (deep-barrier and
+    shallow-barrier limits of d), with W and its derivatives from the series of
+    :func:`~drainplan.spacing.equivalent_depth.molen_wesseling_f`
+    (:func:`drainplan._solve.newton_root`; cases it cannot finish go to the
+    bracketed solver). With D = 0 it reduces to the Donnan (Colding) form
     ``q L^2 = 4 K h^2``. Assumptions: two-dimensional steady flow to
     parallel drains; soil layers homogeneous with their interface at drain
     level; the barrier horizontal; radial flow near the drain folded into d.
@@ -110,19 +116,31 @@ def hooghoudt_spacing(*, recharge, head, k_below, depth_to_barrier, drain_radius
     require_positive(q, "recharge", "recharge", "m/d")
     require_positive(h, "head", "water-table height midway above drain level", "m")
     _check_profile(k1, k2, D, r0, equivalent_depth_method)
-    c_above = 4.0 * k1 * h * h
-    c_below = 8.0 * k2 * h
-    lo = np.maximum(np.sqrt(c_above / q), np.pi * r0 * (1.0 + 1e-6))
-    # d <= D, so the d = D spacing is an upper bound; the factor absorbs rounding
-    hi = np.sqrt((c_below * D + c_above) / q) * (1.0 + 1e-9)
+    shape, inputs = _flat(q, h, k1, k2, D, r0)
 
-    def f(L, q, c_above, c_below, D, r0):
+    def prepare(sel):
+        q, h, k1, k2, D, r0 = _take(inputs, sel)
+        # q L^2 = 8 K2 h d + 4 K1 h^2 with d = pi L / (8 W):  L^2 = A L / W + B;
+        # the root lies between the Donnan spacing (d = 0) and L_D (d = D)
+        return np.pi * k2 * h / q, 4.0 * k1 * h * h / q, D, r0, np.pi * r0 * (1.0 + 1e-6), None
+
+    def bracket(sel):
+        q, h, k1, k2, D, r0 = _take(inputs, sel)
+        c_above = 4.0 * k1 * h * h
+        lo = np.maximum(np.sqrt(c_above / q), np.pi * r0 * (1.0 + 1e-6))
+        # d <= D, so the d = D spacing is an upper bound; the factor absorbs rounding
+        hi = np.sqrt((8.0 * k2 * h * D + c_above) / q) * (1.0 + 1e-9)
+        return lo, hi
+
+    def f(L, i):
+        q, h, k1, k2, D, r0 = _take(inputs, i)
         d = _equivalent_depth_unchecked(L, D, r0, equivalent_depth_method)
-        return q * L * L - c_below * d - c_above                    # Eq. (1.1)
+        return q * L * L - 8.0 * k2 * h * d - 4.0 * k1 * h * h         # Eq. (1.1)
 
-    res = bracketed_root(f, lo, hi, (q, c_above, c_below, D, r0), xtol=xtol,
-                         what="Hooghoudt spacing")
-    return scalar_or_array(res.root)
+    n = int(np.prod(shape))
+    L = _solve_spacing(n, prepare, bracket, f, method=equivalent_depth_method, xtol=xtol,
+                       what="Hooghoudt spacing")
+    return scalar_or_array(L.reshape(shape))
 
 
 def hooghoudt_head(*, spacing, recharge, k_below, depth_to_barrier, drain_radius,

@@ -4,15 +4,11 @@ from __future__ import annotations
 
 import numpy as np
 
-from .._solve import bracketed_root
 from .._validate import (as_float_arrays, require_positive, require_radius_below_barrier,
                         scalar_or_array)
+from .equivalent_depth import _flat, _kirkham_e2, _solve_spacing, _take, molen_wesseling_f
 
 __all__ = ["kirkham_f", "kirkham_head", "kirkham_spacing"]
-
-_CASE_BLOCK = 2048   # cases per block when summing the series
-_TERM_BLOCK = 256    # series terms per block
-_EXP_LIMIT = 40.0    # stop once exp(-2 m x) < exp(-40) ~ 4e-18
 
 
 def _check(depth_to_barrier, drain_radius):
@@ -46,11 +42,26 @@ def kirkham_f(spacing, depth_to_barrier, drain_radius):
         F_K = (1/pi) [ ln(L / (pi r))
               + sum_{m>=1} (1/m) (cos(2 pi m r / L) - cos(m pi)) (coth(2 pi m D / L) - 1) ]
 
-    The terms fall like ``exp(-4 pi m D / L)``; they are summed until that
-    factor is below 1e-17, so shallow barriers (small D/L) need thousands of
-    terms. Equating with the linear Hooghoudt form gives the equivalent depth
+    Equating with the linear Hooghoudt form gives the equivalent depth
     ``d = L / (8 F_K)``, which agrees with the van der Molen & Wesseling series
-    to within 0.05 % (the only difference being the finite-radius terms).
+    to within 0.05 %: writing ``cos(2 pi m r/L) = 1 - 2 sin^2(pi m r/L)``, the
+    odd terms with the 1 are exactly van der Molen & Wesseling's F(x),
+    x = 2 pi D / L, so ::
+
+        pi F_K = ln(L / (pi r)) + F(x) - 2E,
+        2E = sum_{k>=1} ln(1 + sin^2(pi r/L) / sinh^2(k x))
+
+    (expanding ``coth(m x) - 1`` geometrically and summing over m first). 2E
+    is a ratio of Jacobi theta functions; it is summed directly for
+    x > pi/sqrt(2) and, for the shallow barriers whose direct series needs
+    thousands of terms, through the theta functions' modular transformation::
+
+        2E = ln(2D / (L sin(pi r/L))) + ln sinh(pi r/(2D)) - pi r^2/(2 D L)
+             + sum_n ln((1 - 2 p^n cosh(pi r/D) + p^2n) / (1 - p^n)^2),
+        p = exp(-pi L / D),
+
+    a handful of terms either way (derived here; the published series itself
+    is the reference of the tests).
     Assumptions: homogeneous isotropic soil, steady uniform recharge, water
     table low enough to be linearised (h much smaller than D), drains running
     full as line sinks of radius r.
@@ -68,30 +79,15 @@ def kirkham_f(spacing, depth_to_barrier, drain_radius):
     L, D, r = as_float_arrays(spacing, depth_to_barrier, drain_radius)
     require_positive(L, "spacing", "drain spacing", "m")
     _check(D, r)
-    shape = L.shape
-    L, D, r = (np.ravel(v) for v in (L, D, r))
-    x = 2.0 * np.pi * D / L
-    total = np.zeros(L.size)
-    for start in range(0, L.size, _CASE_BLOCK):
-        sl = slice(start, start + _CASE_BLOCK)
-        xs, ls, rs = x[sl], L[sl], r[sl]
-        acc = np.zeros(xs.size)
-        m0 = 1
-        while True:
-            active = m0 * xs < 0.5 * _EXP_LIMIT
-            if not np.any(active):
-                break
-            m = np.arange(m0, m0 + _TERM_BLOCK, dtype=float)
-            xa = xs[active, None]
-            e = np.exp(-2.0 * m * xa)
-            coth_minus_1 = 2.0 * e / (1.0 - e)
-            cos_r = np.cos(2.0 * np.pi * m * rs[active, None] / ls[active, None])
-            cos_pi = np.where(m % 2 == 1, -1.0, 1.0)
-            acc[active] += np.sum((cos_r - cos_pi) * coth_minus_1 / m, axis=1)   # Eq. (2.1)
-            m0 += _TERM_BLOCK
-        total[sl] = acc
-    fk = (np.log(L / (np.pi * r)) + total) / np.pi                            # Eq. (2.1)
-    return scalar_or_array(fk.reshape(shape))
+    return scalar_or_array(_kirkham_f(L, D, r))
+
+
+def _kirkham_f(L, D, r):
+    """F_K without input checks: (ln(L/(pi r)) + F(2 pi D/L) - 2E) / pi."""
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore", under="ignore"):
+        fk = (np.log(L / (np.pi * r)) + molen_wesseling_f(2.0 * np.pi * D / L)
+              - _kirkham_e2(L, D, r)) / np.pi                                  # Eq. (2.1)
+    return fk
 
 
 def kirkham_head(*, spacing, recharge, k, depth_to_barrier, drain_radius):
@@ -151,9 +147,11 @@ def kirkham_spacing(*, head, recharge, k, depth_to_barrier, drain_radius, xtol=1
 
     Notes
     -----
-    Solves ``q L F_K(L) / K = h`` with the shared bracketed solver, between a
-    spacing of ``2 pi r`` and an upper bound from the Hooghoudt linear form
-    with d = D (d never exceeds D).
+    Solves ``q L F_K(L) / K = h``, i.e. ``L (pi F_K) = pi K h / q``, from a
+    closed-form estimate with Halley steps (F_K and its derivative from the
+    closed form in :func:`kirkham_f`), between a spacing of ``2 pi r`` and an
+    upper bound from the Hooghoudt linear form with d = D (d never exceeds D);
+    cases the steps cannot finish go to the bracketed solver.
 
     References
     ----------
@@ -171,11 +169,23 @@ def kirkham_spacing(*, head, recharge, k, depth_to_barrier, drain_radius, xtol=1
     require_positive(q, "recharge", "recharge", "m/d")
     require_positive(K, "k", "hydraulic conductivity", "m/d")
     _check(D, r)
-    lo = 2.0 * np.pi * r
-    hi = 1.05 * np.sqrt(8.0 * K * D * h / q) + 4.0 * lo
+    shape, inputs = _flat(h, q, K, D, r)
 
-    def f(L, h, q, K, D, r):
-        return q * L * kirkham_f(L, D, r) / K - h
+    def bracket(sel):
+        h, q, K, D, r = _take(inputs, sel)
+        lo = 2.0 * np.pi * r
+        return lo, 1.05 * np.sqrt(8.0 * K * D * h / q) + 4.0 * lo
 
-    res = bracketed_root(f, lo, hi, (h, q, K, D, r), xtol=xtol, what="Kirkham spacing")
-    return scalar_or_array(res.root)
+    def prepare(sel):
+        h, q, K, D, r = _take(inputs, sel)
+        lo, hi = bracket(sel)
+        return np.pi * K * h / q, 0.0, D, r, lo, hi
+
+    def f(L, i):
+        h, q, K, D, r = _take(inputs, i)
+        return q * L * _kirkham_f(L, D, r) / K - h
+
+    n = int(np.prod(shape))
+    L = _solve_spacing(n, prepare, bracket, f, cap=False, kirkham=True, xtol=xtol,
+                       what="Kirkham spacing")
+    return scalar_or_array(L.reshape(shape))
