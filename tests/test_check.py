@@ -461,3 +461,16 @@ def test_design_numbers_meet_every_criterion(tmp_path):
     assert out["verdict"] == "meets", [c["text"] for c in out["criteria"] if not c["meets"]]
     assert {"steady", "falling", "lateral capacity", "main capacity"} <= {
         c["name"] for c in out["criteria"]}
+
+
+def test_herringbone_sides_are_not_neighbours():
+    """Laterals at +45 and -45 degrees either side of a main: each measures the
+    perpendicular spacing of its own side, 20 sin 45 = 14.14 m (plane geometry)."""
+    from drainplan.geometry.proposal import measure_laterals
+
+    field = np.array([shapely.box(-20, -110, 340, 110)])
+    up = [shapely.LineString([(x, 1), (x + 100, 101)]) for x in np.arange(0.0, 221.0, 20.0)]
+    down = [shapely.LineString([(x, -1), (x + 100, -101)]) for x in np.arange(0.0, 221.0, 20.0)]
+    g = measure_laterals(np.array(up + down, dtype=object), field)
+    inner = [i for i in range(len(up) + len(down)) if i % len(up) not in (0, len(up) - 1)]
+    assert g.local_spacing[inner] == pytest.approx(20 * math.sin(math.pi / 4), rel=1e-6)
