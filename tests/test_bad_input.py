@@ -169,7 +169,8 @@ def _toml(data):
 
 
 def _setup(tmp_path):
-    for name in ("fields.geojson", "exclusions.geojson", "outlet.geojson", "survey.csv"):
+    for name in ("fields.geojson", "exclusions.geojson", "outlet.geojson", "survey.csv",
+                 "weather.csv"):
         (tmp_path / name).symlink_to(DEMO / name)
     (tmp_path / "empty.geojson").write_bytes(b"")
     (tmp_path / "folder.geojson").mkdir()
