@@ -9,9 +9,13 @@ Every figure is a ratio measured in the same process against a yardstick:
   summed by numpy for each call, as a scalar implementation would);
 
 at several sizes, with CPU time of this thread (``time.thread_time``, best of
-several runs) so that other processes on the machine disturb the figures less, and
-the machine's load average (``os.getloadavg``) recorded beside each figure.
-Start-up figures are wall times of fresh processes. Run on demand:
+several runs, solver and floor in turn) so that other processes on the machine
+disturb the figures less, and the machine's load average (``os.getloadavg``)
+recorded beside each figure. The process runs as the command line runs it: one
+BLAS thread and the C library's allocator keeping freed memory
+(``drainplan.cli.tune_allocator``); a second process measures Hooghoudt with the
+default allocator for comparison. Start-up figures are wall times of fresh
+processes. Run on demand:
 
     python benchmarks/bench_spacing.py [--quick] [--write]
 
@@ -22,6 +26,7 @@ benchmarks/README.md.
 from __future__ import annotations
 
 import argparse
+import json
 import math
 import os
 import platform
@@ -168,20 +173,23 @@ def methods():
             ("Kirkham (steady rain)", kirk, kirk_floor, scalar_kirkham, None)]
 
 
-def floor_time(floor, c, L, n, repeat):
-    """Best time of one evaluation at the answer over block sizes (the strongest floor)."""
-    best = math.inf
-    for block in (4096, 8192, 16384, 32768):
-        def run():
-            for s in range(0, n, block):
-                floor(c, L, slice(s, s + block))
-        best = min(best, cpu_best(run, repeat))
-    return best
+def solve_and_floor(solve, floor, c, L, n, repeat):
+    """Best CPU times of the solver and of one evaluation at the answer (the floor: best
+    over block sizes), measured in turn so that both meet the same conditions."""
+    def run_floor(block):
+        for s in range(0, n, block):
+            floor(c, L, slice(s, s + block))
+    t_solve = t_floor = math.inf
+    for _ in range(repeat):
+        t_solve = min(t_solve, cpu_best(lambda: solve(c), 1))
+        for block in (4096, 8192, 16384, 32768):
+            t_floor = min(t_floor, cpu_best(lambda: run_floor(block), 1))
+    return t_solve, t_floor
 
 
-def bench_methods(sizes, scalar_cases, repeat):
+def bench_methods(sizes, scalar_cases, repeat, only=None):
     rows = []
-    for name, solve, floor, scalar, target in methods():
+    for name, solve, floor, scalar, target in methods()[:only]:
         c_small = practical_cases(scalar_cases, seed=7)
         solve(c_small)                                   # warm-up
         t0 = time.thread_time()
@@ -191,8 +199,7 @@ def bench_methods(sizes, scalar_cases, repeat):
         for n in sizes:
             c = practical_cases(n)
             L = solve(c)
-            t_solve = cpu_best(lambda: solve(c), repeat)
-            t_floor = floor_time(floor, c, L, n, repeat)
+            t_solve, t_floor = solve_and_floor(solve, floor, c, L, n, repeat)
             rows.append(dict(name=name, n=n, solve=t_solve, floor=t_floor,
                              scalar=t_scalar * n, agree=agree, nan=int(np.isnan(L).sum()),
                              target=target, load=load()))
@@ -224,9 +231,9 @@ def bench_startup(repeat):
         ("`drainplan --help`", wall_best([exe, "--help"], repeat)),
         ("`drainplan spacing ... --recharge 0.007`", wall_best(spacing + ["0.007"], repeat)),
         ("`drainplan spacing ... --recharge '7 mm/d'`", wall_best(spacing + ["7 mm/d"], repeat)),
-        ("`drainplan spacing ... --recharge '7 mm/day'` (also `'7 mm / d'`: table)",
+        ("`drainplan spacing ... --recharge '7 mm/day'` (also from the table)",
          wall_best(spacing + ["7 mm/day"], repeat)),
-        ("a unit outside the table (`'7 mm/fortnight'`, loads pint)",
+        ("a unit outside the table (`'0.5 mm/fortnight'`, loads pint)",
          wall_best(spacing + ["0.5 mm/fortnight"], repeat)),
     ]
     code = ("import time, sys; from drainplan.units import parse_quantity as p; p('1 m', 'length');"
@@ -256,7 +263,10 @@ def report(rows, startup, args):
              f"(Kirkham: its series summed by numpy per call), timed on {args.scalar_cases:,} "
              "cases and scaled. Inputs: seeded, practical range (K 0.05-5 m/d, q 1-10 mm/d, "
              "h 0.2-1 m, D 0.5-20 m, r 0.05-0.15 m). *load*: 1-minute load average when the "
-             "row was measured (the machine is shared; 2.0 means both cores busy).",
+             "row was measured (the machine is shared; 2.0 means both cores busy). "
+             "The allocator keeps freed memory as the command line sets it"
+             + ("" if getattr(args, "tuned", False) else " (not available here)")
+             + ", except in the last row (the C library's default).",
              "",
              "| method | cases | drainplan | cases/s | vs floor | target | vs scalar loop "
              "| largest difference from scalar | NaN | load |",
@@ -268,22 +278,28 @@ def report(rows, startup, args):
             f" | {r['solve'] / r['floor']:.2f}x | {tgt} | {r['scalar'] / r['solve']:,.0f}x "
             f"| {r['agree']:.1e} m | {r['nan']} | {r['load']:.1f} |")
     lines += ["", "How: a closed-form estimate (the deep- and shallow-barrier limits of the "
-              "equivalent depth), one Halley step with two terms of the series, one with all "
+              "equivalent depth), one Halley step with four terms of the series, one with all "
               "of them (`drainplan._solve.newton_root`'s stop predicts the error of the new "
               "point); Kirkham's F_K in closed form (F_K = L / (8 d) less a finite-radius "
               "term summed in a few terms), Newton steps. Results agree with the previous "
-              "implementation to 1e-6 m (tests/test_solver_reference.py)."]
+              "implementation to 1e-6 m (tests/test_solver_reference.py). At 10,000 cases "
+              "the fixed cost of a call (input checks, Python's cost per array operation) "
+              "weighs more against the floor's few operations. The previous implementation "
+              "(bracketed Chandrupatla, blocks of 32,768) ran at 0.24-0.53 M cases/s for "
+              "Hooghoudt and 7,000-12,000 cases/s for Kirkham on this machine (issue 15)."]
     srows, per_call, pint_loaded, mods, ld = startup
     lines2 = ["## Command-line start-up", "", head.replace("bench_spacing.py", "bench_spacing.py"),
               "", f"Wall time of a fresh process, best of {args.startup_repeat}; load average "
-              f"{ld:.1f}.", "", "| what | wall time |", "| --- | ---: |"]
+              f"{ld:.1f}.", "", "| what | wall time | vs bare interpreter |",
+              "| --- | ---: | ---: |"]
+    bare = srows[0][1]
     for name, t in srows:
-        lines2.append(f"| {name} | {t * 1e3:.0f} ms |")
+        lines2.append(f"| {name} | {t * 1e3:.0f} ms | {t / bare:.1f}x |")
     lines2 += ["", f"Parsing `'7 mm/d'` in process: {per_call * 1e6:.1f} µs per call "
                f"(pint loaded: {'yes' if pint_loaded else 'no'}). Modules loaded by "
                f"`drainplan --help`: {mods or 'none of numpy, pint'} (of numpy, pint, click).",
                "", "Target: `drainplan --help` under 200 ms; a value with a common unit costs "
-               "no pint start-up."]
+               "no pint start-up. The spacing command's own time is mostly numpy's import."]
     return "\n".join(lines), "\n".join(lines2)
 
 
@@ -302,12 +318,26 @@ def main():
     ap = argparse.ArgumentParser()
     ap.add_argument("--quick", action="store_true", help="smaller sizes, fewer repeats")
     ap.add_argument("--write", action="store_true")
+    ap.add_argument("--default-allocator", action="store_true",
+                    help="Hooghoudt only, C library allocator as it comes; rows as JSON")
     args = ap.parse_args()
     sizes = [10_000, 100_000] if args.quick else [10_000, 100_000, 1_000_000]
-    args.repeat = 3 if args.quick else 5
+    args.repeat = 3 if args.quick else 9
     args.scalar_cases = 300 if args.quick else 1500
     args.startup_repeat = 3 if args.quick else 7
+    if args.default_allocator:
+        print(json.dumps(bench_methods(sizes[-1:], args.scalar_cases, args.repeat, only=1)))
+        return
+    from drainplan.cli import tune_allocator
+
+    args.tuned = tune_allocator()
     rows = bench_methods(sizes, args.scalar_cases, args.repeat)
+    out = subprocess.run([sys.executable, __file__, "--default-allocator"]
+                         + (["--quick"] if args.quick else []),
+                         capture_output=True, text=True, check=True).stdout
+    for r in json.loads(out.strip().splitlines()[-1]):
+        r["name"] += ", default allocator"
+        rows.append(r)
     startup = bench_startup(args.startup_repeat)
     solvers, start = report(rows, startup, args)
     print(solvers + "\n\n" + start)

@@ -513,8 +513,8 @@ def _solve_block(A, B, D, r0, lo, hi, method, cap, kirkham, xtol):
         wargs = _w_args(branch, method, kirkham, Db, r0[idx], gamma[idx])
         prev = None
         if method == "series" and not kirkham:
-            # one Halley step with two terms of the series (cheap, ~1e-3 close)
-            g, g1, g2 = _g(_w_func(branch, method, kirkham, 2), x, Ab, Bb, wargs)
+            # one Halley step with four terms of the series (cheap, ~1e-6 close)
+            g, g1, g2 = _g(_w_func(branch, method, kirkham, 4), x, Ab, Bb, wargs)
             step = g / (g1 - 0.5 * g * g2 / g1)
             x = x - step
             prev = np.abs(step)
