@@ -40,11 +40,11 @@ from pathlib import Path
 
 import numpy as np
 
-from .errors import ConvergenceWarning, DrainplanError, InputError
+from .errors import ConvergenceWarning, InputError
 from .units import parse_quantity, show
 
 __all__ = ["Proposal", "CheckResult", "SPACING_CRITERIA", "read_proposal", "check_proposal",
-           "EDGE_TREATMENT", "PROPOSAL_KEYS"]
+           "confidence_criteria", "EDGE_TREATMENT", "PROPOSAL_KEYS"]
 
 #: Keys of a ``[proposal]`` section: kind of quantity.
 PROPOSAL_KEYS = {"name": "text", "lateral_spacing": "length", "depth": "length",
@@ -90,13 +90,13 @@ class SpacingCriterion:
     source: str
 
 
-def _design_spacing(p, method, depth, radius):
+def _design_spacing(p, method, depth, radius, k_scale=1.0):
     from .design import _spacing
 
     q = dataclasses.replace(p, drains={**p.drains, "radius": radius})
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", ConvergenceWarning)
-        r = _spacing(q, method, depth)
+        r = _spacing(q, method, depth, k_scale=k_scale)
     if r is None:
         return float("nan")
     if isinstance(r, Exception):
@@ -133,6 +133,38 @@ SPACING_CRITERIA = [
                       f"{p.criteria['days']:g} d (Glover–Dumm)"),
         "Glover–Dumm falling water table (Dumm 1954, 1964)"),
 ]
+
+
+def confidence_criteria(k_cv, confidence):
+    """The project's spacing criteria met with probability ``confidence`` when K is
+    lognormal with coefficient of variation ``k_cv`` around the project's K.
+
+    When only K varies and the spacing grows with K, P[L(K) >= L0] = P[K >= K0]:
+    the spacing met with confidence c is the deterministic spacing at
+    K_c = K50 exp(-z_c sigma), sigma = sqrt(ln(1 + cv^2)) (drainplan's method
+    notes 14.5; exact, no sampling). Every K of the project is scaled by the same
+    factor, so layered ratios are kept.
+    """
+    from .uncertainty import k_at_confidence, lognormal_log_sd
+
+    if not (math.isfinite(k_cv) and 0 < k_cv <= 5):
+        raise InputError(f"coefficient of variation of K {k_cv:g} must lie in (0, 5]",
+                         param="k_cv")
+    if not (0.5 <= confidence < 1):
+        raise InputError(f"confidence {confidence:g} must lie in [0.5, 1)", param="confidence")
+    f = k_at_confidence(1.0, lognormal_log_sd(k_cv), confidence)
+    out = []
+    for c in SPACING_CRITERIA:
+        method = (lambda p: _steady_method(p)) if c.key == "steady" else \
+            (lambda p: "glover-dumm")
+        out.append(SpacingCriterion(
+            f"{c.key} at {confidence:.0%} confidence", c.applies,
+            lambda p, z, r, m=method: _design_spacing(p, m(p), z, r, k_scale=f),
+            lambda p, u, c=c: (c.describe(p, u) + f", met with {confidence:.0%} "
+                               f"confidence for K lognormal with cv {k_cv:g} (K x {f:.3f})"),
+            c.source + "; K at confidence K50 exp(-z sigma), lognormal K (method notes "
+            "14.5, exact when only K varies)"))
+    return out
 
 
 # --------------------------------------------------------------------------- proposal
@@ -263,7 +295,8 @@ def _read_lines(p, *, crs=None, layer=None):
 
     from .gisio import read_layer
 
-    gdf, file_crs = read_layer(p, layer=layer, crs=crs, what="proposal", option="proposal")
+    gdf, file_crs = read_layer(p, layer=layer, crs=crs, what="proposal", option="proposal",
+                               keep_z=True)
     geoms = gdf.geometry.values
     ok = np.array([g is not None and not g.is_empty and g.geom_type in
                    ("LineString", "MultiLineString") for g in geoms], bool)
@@ -362,6 +395,11 @@ def _r(v, nd=3):
     return round(v, nd) if math.isfinite(v) else None
 
 
+def _slug(name):
+    """'steady at 80% confidence' -> 'steady_at_80pct_confidence'."""
+    return "_".join(name.replace("%", "pct").split())
+
+
 def _sig(v, digits=6):
     """Rounded to ``digits`` significant figures (None for NaN)."""
     v = float(v)
@@ -395,6 +433,7 @@ def _fields_metric(p):
     keep = [i for i, g in enumerate(geoms) if g is not None]
     fields = np.array([geoms[i] for i in keep], dtype=object)
     regions = fields
+    zones = None
     if fl.get("exclusions"):
         import shapely
 
@@ -409,7 +448,11 @@ def _fields_metric(p):
             sb = np.where(np.isfinite(v) & (v >= 0), v, sb)
         zones = shapely.union_all(shapely.buffer(ex.geometry.values, sb))
         regions = shapely.difference(fields, zones)
-    return fields, regions, [ids[i] for i in keep], work_crs, file_crs
+        kinds = sorted({str(k) for k in ex["kind"]}) if "kind" in ex.columns else []
+        zones = (zones, kinds)
+    else:
+        zones = None
+    return fields, regions, zones, [ids[i] for i in keep], work_crs, file_crs
 
 
 def _outlet_point(p, work_crs, file_crs):
@@ -490,10 +533,13 @@ def _layout_lines(p, prop, work_crs):
     outs = lp.layers["outlets"].to_crs(work_crs)
     outlet_pts = [tuple(g.coords[0]) for g, k in zip(outs.geometry, outs["kind"])
                   if k == "main outlet"]
-    return gpd.GeoDataFrame(rows, geometry=geoms, crs=work_crs), outlet_pts
+    res = gpd.GeoDataFrame(rows, geometry=geoms, crs=work_crs)
+    res.attrs["sub_main_pieces"] = int(len(unc))
+    return res, outlet_pts
 
 
-def check_proposal(project, proposal, *, units=None, progress=None):
+def check_proposal(project, proposal, *, units=None, progress=None, k_cv=None,
+                   confidence=None):
     """Check ``proposal`` against every criterion of ``project``.
 
     Parameters
@@ -503,6 +549,10 @@ def check_proposal(project, proposal, *, units=None, progress=None):
     units : {"metric", "us"}, optional
         Units of the sentences in the result (default: the project's).
     progress : callable, optional
+    k_cv, confidence : float, optional
+        Coefficient of variation of K [-] and a confidence level (default 0.8):
+        adds each spacing criterion met with that confidence
+        (:func:`confidence_criteria`).
 
     Returns
     -------
@@ -522,7 +572,7 @@ def check_proposal(project, proposal, *, units=None, progress=None):
     notes = list(proposal.notes)
 
     say("fields")
-    fields, regions, field_ids, work_crs, file_crs = _fields_metric(p)
+    fields, regions, zones, field_ids, work_crs, file_crs = _fields_metric(p)
     outlet = _outlet_point(p, work_crs, file_crs)
 
     # --- lines
@@ -534,6 +584,10 @@ def check_proposal(project, proposal, *, units=None, progress=None):
         source = "numbers"
         notes.append(f"numbers only: laterals laid out by drainplan at the proposed spacing "
                      f"{nums['lateral_spacing']:g} m with the project's layout options")
+        k = lines.attrs.get("sub_main_pieces", 0)
+        if k:
+            notes.append(f"{k} lateral piece(s) beyond exclusions need a sub-main to the "
+                         "field's main (their flow is counted in that main)")
     else:
         lines = proposal.lines.to_crs(work_crs)
         source = "drawn"
@@ -563,16 +617,16 @@ def check_proposal(project, proposal, *, units=None, progress=None):
             return np.asarray(surface(np.asarray(xy, float)), float)
     net = join_network(shapely.force_2d(lat_g), shapely.force_2d(main_g),
                        tolerance=JOIN_TOLERANCE, outlet=outlet_pts, elevation_of=elev)
+    free = np.flatnonzero(net.lateral_main < 0)
     if source == "numbers" and main_g.size:
-        # layout pieces reach their main through connectors: join by field
+        # layout pieces reach their main through connectors or sub-mains: join by field
         hint_main = {h: i for i, h in enumerate(main_rows["field_hint"])}
         for i, h in enumerate(lat_rows["field_hint"]):
             if net.lateral_main[i] < 0 and h in hint_main:
                 net.lateral_main[i] = hint_main[h]
-    free = np.flatnonzero(net.lateral_main < 0)
     if free.size and (has_z or elev is not None):
-        # a lateral that reaches no main drains to its lower end (its Z values, or the
-        # ground)
+        # a lateral that reaches no main directly drains to its lower end (its Z values,
+        # or the ground)
         za, zb = np.full(free.size, np.nan), np.full(free.size, np.nan)
         for k, i in enumerate(free):
             g = lat_g[i]
@@ -598,7 +652,23 @@ def check_proposal(project, proposal, *, units=None, progress=None):
 
     # --- depth and radius of each lateral
     design_depths = p.drains["depth"]
-    depth = lat_rows["depth_m"].to_numpy(float)
+    depth = lat_rows["depth_m"].to_numpy(float).copy()
+    if has_z and surface is not None:
+        # surveyed inverts under surveyed ground: the depth as installed (mean along it)
+        n_z = 0
+        for i in np.flatnonzero(np.isnan(depth) & inside):
+            if shapely.has_z(lat_g[i]):
+                c = shapely.get_coordinates(lat_g[i], include_z=True)
+                depth[i] = float(np.mean(elev(c[:, :2]) - c[:, 2]))
+                n_z += 1
+        if n_z:
+            notes.append(f"{n_z} lateral depth(s) from the surveyed ground above the lines' "
+                         "Z values (mean along each lateral)")
+            bad = np.flatnonzero(inside & ~(depth > 0))
+            if bad.size:
+                raise InputError(f"lateral {lat_ids[bad[0]]}: its Z "
+                                 "values lie above the surveyed ground (Z must be the pipe "
+                                 "invert, in the survey's datum)", param="proposal")
     default_depth = nums.get("depth")
     if default_depth is None and len(design_depths) == 1:
         default_depth = design_depths[0]
@@ -675,10 +745,10 @@ def check_proposal(project, proposal, *, units=None, progress=None):
             g[i] = (iu - idn) / L
         return g, inv_up, inv_dn
 
-    lat_grade, lat_iu, lat_id = grades(lat_g, net.lateral_upstream, net.lateral_junction,
+    lat_grade, _, _ = grades(lat_g, net.lateral_upstream, net.lateral_junction,
                                        depth)
     main_depth = pp.get("main_depth", float(np.nanmax(depth)) + 0.3)
-    main_grade, main_iu, main_id = grades(main_g, net.main_upstream_point,
+    main_grade, _, _ = grades(main_g, net.main_upstream_point,
                                           net.main_outlet_point, np.full(main_g.size,
                                                                          main_depth))
     elevations = bool(np.isfinite(lat_grade).any())
@@ -720,7 +790,6 @@ def check_proposal(project, proposal, *, units=None, progress=None):
     strip_area = np.where(inside, geo.strip_area, 0.0)
     lat_flow = coef * strip_area / 86400.0                     # m3/s, Q = DC x A
     nm = main_g.size
-    main_flow = np.zeros(nm)
     main_area = np.zeros(nm)
     for i, m in enumerate(net.lateral_main):
         if m >= 0 and inside[i]:
@@ -736,9 +805,22 @@ def check_proposal(project, proposal, *, units=None, progress=None):
     if nm == 0:
         notes.append("the proposal draws no main: main sizes not checked")
 
+    stated = nums.get("lateral_spacing")
+    if stated is not None and source == "drawn" and inside.any():
+        med = float(np.nanmedian(geo.local_spacing[inside]))
+        notes.append(f"stated lateral spacing {show(stated, 'spacing', u, 1)}; measured on "
+                     f"the drawn lines: median {show(med, 'spacing', u, 1)} (the drawn "
+                     "lines are checked)")
+
     # --- spacing criteria per lateral and side
     say("spacing criteria")
     crit_list = [c for c in SPACING_CRITERIA if c.applies(p)]
+    if k_cv is not None:
+        crit_list += [c for c in confidence_criteria(k_cv, 0.8 if confidence is None
+                                                     else confidence) if c.applies(p)]
+    elif confidence is not None:
+        raise InputError("a confidence level needs the spread of K: give --k-cv too",
+                         param="confidence")
     keys = np.round(depth, 4)
     allowed = {}
     for c in crit_list:
@@ -887,6 +969,12 @@ def check_proposal(project, proposal, *, units=None, progress=None):
               "project minimum cover (pipes.min_cover; about 0.6 m under field traffic, "
               "common practice); outside diameter 1.15 x inside for corrugated pipe",
               mask=inside, unit="m")
+    add_check("lateral depth", "depth", depth, pp.get("max_depth", 2.0), lat_ids, True,
+              lat_fail, lambda w, ok, m: verdict_text(
+                  "lateral depth", ok, show(depth[w], "length", u, 2),
+                  show(pp.get("max_depth", 2.0), "length", u, 2), m, at_most=True),
+              "project maximum trench depth (pipes.max_depth); deeper trenches need the "
+              "protective systems in the cautions", mask=inside, unit="m")
     add_check("lateral minimum velocity", "velocity", lat_vel, vmin, lat_ids, False, lat_fail,
               lambda w, ok, m: verdict_text("lateral full-flow velocity", ok,
                                             show(lat_vel[w], "velocity", u, 2),
@@ -907,6 +995,21 @@ def check_proposal(project, proposal, *, units=None, progress=None):
                       show(vmax, "velocity", u, 2), m, at_most=True),
                   "project maximum velocity (pipes.max_velocity)", mask=main_grade_checked,
                   unit="m/s")
+    if zones is not None:
+        inside_zone = shapely.length(shapely.intersection(shapely.force_2d(lat_g), zones[0]))
+        what = ", ".join(zones[1]) or "exclusion"
+        add_check("clear of exclusion setbacks", "safety", inside_zone, 0.5, lat_ids, True,
+                  lat_fail, lambda w, ok, m: (
+                      f"perforated lateral runs {show(inside_zone[w], 'length', u, 1)} inside "
+                      f"the setback zones ({what}): "
+                      + ("meets" if ok else "fails (non-perforated pipe there, or route "
+                                            "around; follow the local well and sanitation "
+                                            "codes)")),
+                  "project exclusions and their setbacks ([fields] exclusions, "
+                  "exclusion_setback or the setback_m attribute); see the cautions",
+                  mask=inside, unit="m")
+        if pipe_entries and pipe_entries[-1]["name"] == "clear of exclusion setbacks":
+            pipe_entries[-1]["margin_pct"] = None     # a length inside: no useful ratio
     if nm:
         gap = shapely.distance(shapely.points(net.lateral_junction),
                                shapely.union_all(shapely.force_2d(main_g)))
@@ -934,6 +1037,7 @@ def check_proposal(project, proposal, *, units=None, progress=None):
         d = net.main_downstream[m]
         if d >= 0 and bad_main[d]:
             bad_main[m] = True
+            main_fail[m].append("main downstream")
     for i, m in enumerate(net.lateral_main):
         if m >= 0 and bad_main[m]:
             lat_fail[i].append("main downstream")
@@ -968,7 +1072,7 @@ def check_proposal(project, proposal, *, units=None, progress=None):
             "capacity_l_s": _r(lat_cap[i] * 1000, 3),
             "grade": _sig(lat_grade[i]) if np.isfinite(lat_grade[i]) else None,
             "main_id": main_ids[net.lateral_main[i]] if net.lateral_main[i] >= 0 else None,
-            **{f"allowed_{k}_m": _r(v[0][i]) for k, v in lateral_checks.items()},
+            **{f"allowed_{_slug(k)}_m": _r(v[0][i]) for k, v in lateral_checks.items()},
             "meets": bool(lat_meets[i]), "fails": sorted(set(lat_fail[i])),
             "x": _r(lat_g[i].centroid.x, 2), "y": _r(lat_g[i].centroid.y, 2)})
     mains_out = []

@@ -140,7 +140,7 @@ def _swapped_hint(bounds):
     return ""
 
 
-def read_layer(path, *, layer=None, crs=None, what="fields", option="FIELDS"):
+def read_layer(path, *, layer=None, crs=None, what="fields", option="FIELDS", keep_z=False):
     """Read a vector layer: GeoJSON, GeoPackage, Shapefile (also zipped), FlatGeobuf.
 
     Parameters
@@ -154,6 +154,9 @@ def read_layer(path, *, layer=None, crs=None, what="fields", option="FIELDS"):
         Name used in messages ("fields", "exclusions").
     option : str
         Option or argument name used in messages.
+    keep_z : bool
+        Keep Z coordinates (a drawn proposal whose Z values are pipe inverts); by
+        default polygons lose theirs (elevations in a boundary are not used).
 
     Returns
     -------
@@ -198,7 +201,8 @@ def read_layer(path, *, layer=None, crs=None, what="fields", option="FIELDS"):
     if not hasattr(gdf, "geometry") or "geometry" not in getattr(gdf, "columns", []):
         raise InputError(f"{what} file {path} holds no geometries (a table without "
                          "coordinates?)", param=option)
-    gdf = _drop_z(gdf)
+    if not keep_z:
+        gdf = _drop_z(gdf)
     bounds = np.asarray(gdf.total_bounds, float) if len(gdf) else np.full(4, np.nan)
     if len(gdf) and not gdf.geometry.is_empty.all():
         if not np.all(np.isfinite(bounds)) or np.max(np.abs(bounds)) > MAX_COORDINATE:
@@ -225,11 +229,11 @@ def read_layer(path, *, layer=None, crs=None, what="fields", option="FIELDS"):
         raise InputError(f"{what} file {path} says its CRS is {file_crs.to_string()} "
                          "(degrees) but its coordinates are not degrees" + (
                              hint or "; give the right CRS with --crs"), param="crs")
-    if file_crs.is_geographic and len(gdf) and max(abs(bounds[1]), abs(bounds[3])) > 84:
+    if file_crs.is_geographic and len(gdf) and (bounds[3] > 84 or bounds[1] < -80):
         hint = _swapped_hint(bounds)
         raise InputError(f"{what} file {path} puts the features at latitude "
-                         f"{bounds[3] if abs(bounds[3]) > 84 else bounds[1]:.6g}, beyond the "
-                         "84th parallel" + (hint or "; give a polar --work-crs"),
+                         f"{bounds[3] if bounds[3] > 84 else bounds[1]:.6g}, beyond the UTM "
+                         "zones (80 S to 84 N)" + (hint or "; give a polar --work-crs"),
                          param="crs" if hint else "work_crs")
     if file_crs.is_projected and len(gdf) and degrees and max(abs(bounds[[0, 2]])) <= 180 \
             and (bounds[2] - bounds[0]) < 5 and (bounds[3] - bounds[1]) < 5:
@@ -290,27 +294,72 @@ def _utm(gdf):
 
 
 def scale_error(crs, gdf):
-    """Largest departure from 1 of ``crs``'s point scale factors at the corners and
-    centre of ``gdf``'s extent (pyproj projection factors)."""
+    """Largest departure from 1 of ``crs``'s scale at the corners and centre of
+    ``gdf``'s extent: the larger of pyproj's projection factors (which take a
+    spherical projection such as Web Mercator on its own sphere) and the ratio of
+    geodesic distance on the CRS's ellipsoid (pyproj ``Geod``) to grid distance
+    over short east and north steps (which sees that sphere is not the datum's
+    ellipsoid)."""
     from pyproj import CRS, Proj, Transformer
 
     if len(gdf) == 0:
         return 0.0
+    target = CRS.from_user_input(crs)
     x0, y0, x1, y1 = np.asarray(gdf.total_bounds, float)
     xs = np.array([x0, x1, x0, x1, (x0 + x1) / 2])
     ys = np.array([y0, y0, y1, y1, (y0 + y1) / 2])
     src = CRS.from_user_input(gdf.crs)
-    if src.is_geographic:
-        lon, lat = xs, ys
-    else:
-        lon, lat = Transformer.from_crs(src, "EPSG:4326", always_xy=True).transform(xs, ys)
     try:
-        f = Proj(CRS.from_user_input(crs)).get_factors(np.asarray(lon), np.asarray(lat))
-        k = np.concatenate([np.atleast_1d(f.meridional_scale), np.atleast_1d(f.parallel_scale)])
+        if src.is_geographic:
+            lon, lat = xs, ys
+        else:
+            lon, lat = Transformer.from_crs(src, "EPSG:4326", always_xy=True).transform(xs, ys)
+        lon, lat = np.asarray(lon, float), np.asarray(lat, float)
+        f = Proj(target).get_factors(lon, lat)
+        k = [np.atleast_1d(f.meridional_scale), np.atleast_1d(f.parallel_scale)]
+        # grid steps of 100 m east and north against their geodesic lengths
+        geo = target.geodetic_crs
+        fwd = Transformer.from_crs("EPSG:4326", target, always_xy=True)
+        inv = Transformer.from_crs(target, geo, always_xy=True)
+        gx, gy = fwd.transform(lon, lat)
+        geod = target.get_geod()
+        step = 100.0
+        for dx, dy in ((step, 0.0), (0.0, step)):
+            a_lon, a_lat = inv.transform(np.asarray(gx), np.asarray(gy))
+            b_lon, b_lat = inv.transform(np.asarray(gx) + dx, np.asarray(gy) + dy)
+            _, _, dist = geod.inv(a_lon, a_lat, b_lon, b_lat)
+            k.append(step / np.asarray(dist, float))
+        k = np.concatenate(k)
     except Exception:
         return float("inf")
     k = k[np.isfinite(k)]
     return float(np.max(np.abs(k - 1.0))) if k.size else float("inf")
+
+
+#: Farthest an outlet may lie from the nearest field [m].
+MAX_OUTLET_DISTANCE = 20_000.0
+
+
+def check_outlet_near(points, geoms, file_crs=None):
+    """Refuse outlet points (working CRS, metres) that are not finite or lie more than
+    :data:`MAX_OUTLET_DISTANCE` from every field: a point given in the wrong CRS or
+    with its coordinates swapped."""
+    import shapely
+
+    pts = np.asarray(points, float).reshape(-1, 2)
+    usable = [g for g in geoms if g is not None]
+    if not usable:
+        return
+    where = f" (in {file_crs.to_string()}, the fields file's CRS)" if file_crs else ""
+    if not np.all(np.isfinite(pts)):
+        raise InputError(f"the outlet is not near the fields: its coordinates{where} do not "
+                         "transform to a nearby position", param="outlet")
+    union = shapely.union_all(np.array(usable, dtype=object))
+    d = shapely.distance(shapely.points(pts), union)
+    if np.max(d) > MAX_OUTLET_DISTANCE:
+        raise InputError(f"the outlet is not near the fields: it lies {np.max(d) / 1000:,.1f} "
+                         f"km from the nearest one; give it in the fields' coordinates{where}",
+                         param="outlet")
 
 
 def field_overlaps(geoms, ids, *, min_area=1.0):
@@ -621,6 +670,7 @@ def read_survey(path, *, crs, z_unit="m", work_crs=None):
 
     from .units import convert
 
+    check_input_file(path, what="survey", param="survey")
     try:
         with open(path, newline="", encoding="utf-8-sig") as fh:
             rows = list(csv.DictReader(fh))
@@ -648,12 +698,25 @@ def read_survey(path, *, crs, z_unit="m", work_crs=None):
     if np.any(~np.isfinite(z)):
         i = int(np.flatnonzero(~np.isfinite(z))[0])
         raise InputError(f"survey file {path}: point {i + 1} has no z", param="survey")
+    if not np.all(np.isfinite(xy)) or np.max(np.abs(xy)) > MAX_COORDINATE:
+        raise InputError(f"survey file {path} holds x, y that cannot be a real position",
+                         param="survey")
     z = np.asarray(convert(z, z_unit, "m"), float)
     try:
         src = CRS.from_user_input(crs)
     except Exception:
         raise InputError(f"survey CRS {crs!r} is not a known CRS (e.g. EPSG:4326)",
                          param="survey_crs") from None
+    lo, hi = xy.min(axis=0), xy.max(axis=0)
+    degrees = (-180 <= lo[0] and hi[0] <= 180 and -90 <= lo[1] and hi[1] <= 90
+               and np.all(hi - lo < 5))
+    if src.is_projected and degrees:
+        named = " (its columns are named " + f"{cx}, {cy})" if cx.strip().lower() in (
+            "lon", "longitude") else ""
+        raise InputError(f"survey file {path}: x, y look like longitude and latitude in "
+                         f"degrees{named}, but are read in {src.to_string()} (metres); give "
+                         "their CRS with --survey-crs EPSG:4326 (survey_crs in a project "
+                         "file)", param="survey_crs")
     if work_crs is not None and src != work_crs:
         tr = Transformer.from_crs(src, work_crs, always_xy=True)
         xy = np.c_[tr.transform(xy[:, 0], xy[:, 1])]
@@ -666,6 +729,7 @@ def read_dem(path, work_crs):
     Returns ``(values, affine transform (a, b, c, d, e, f), nodata)``; needs
     rasterio (the ``dem`` extra).
     """
+    check_input_file(path, what="DEM", param="dem")
     try:
         import rasterio
         from rasterio.warp import Resampling, calculate_default_transform, reproject

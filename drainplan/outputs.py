@@ -17,7 +17,6 @@ by an interrupted run are cleared on the next run.
 from __future__ import annotations
 
 import hashlib
-import io
 import json
 import math
 import os
@@ -37,47 +36,12 @@ MANIFEST = ".drainplan-outputs.json"
 _STAGING = ".drainplan-staging"
 
 
-def _png(fig):
-    from .plots import save_figure
-
-    buf = io.BytesIO()
-    save_figure(fig, buf)
-    import matplotlib.pyplot as plt
-
-    plt.close(fig)
-    return buf.getvalue()
-
-
 def render_figures(result):
-    """PNG bytes of the sheet's figures: plan, section, falling (if any), profiles (if any)."""
-    import matplotlib
+    """PNG bytes of the sheet's figures: plan, section, falling (if any), profiles (if any),
+    in the project's report units (see :func:`drainplan.plots.design_figures`)."""
+    from .plots import design_figures
 
-    matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
-
-    from .plots import cross_section, falling_water_table, key_profiles, plan_map
-
-    lp, fd = result.layout_plan, result.figures
-    out = {}
-    metric = {k: v.to_crs(lp.work_crs) for k, v in lp.layers.items()}
-    fig, ax = plt.subplots(figsize=(8, 6.2))
-    plan_map(metric, ax=ax)
-    out["plan"] = _png(fig)
-    fig, ax = plt.subplots(figsize=(8, 3.0))
-    cross_section(fd, ax=ax)
-    out["section"] = _png(fig)
-    if "falling_t" in fd:
-        fig, axes = plt.subplots(1, 2, figsize=(8, 2.8))
-        falling_water_table(fd, axes=axes)
-        fig.tight_layout()
-        out["falling"] = _png(fig)
-    fig, axes = plt.subplots(1, 2, figsize=(8, 2.8))
-    if key_profiles(result.pipes_plan.design, axes=axes) is not None:
-        fig.tight_layout()
-        out["profiles"] = _png(fig)
-    else:
-        plt.close(fig)
-    return out
+    return design_figures(result)
 
 
 def _clean(obj):

@@ -10,7 +10,6 @@ dates (reportlab's invariant mode).
 from __future__ import annotations
 
 import io
-import os
 
 from ._templates import template_text
 
@@ -117,7 +116,7 @@ def _image(png, width, fit=False):
     class _Fit(Flowable):
         def wrap(self, aw, ah):
             scale = min(1.0, aw / width, max(ah - 2, 0) / (width * ih / iw))
-            if scale < 0.6:
+            if scale < 0.7:
                 scale = min(1.0, aw / width)
             self.w, self.h = width * scale, width * ih / iw * scale
             img.drawWidth, img.drawHeight = self.w, self.h
@@ -330,7 +329,7 @@ def _sensitivity_rows(s, f, P):
                 vtxt = f.radius(val)
                 name = (r.get("names") or [None] * 3)[i]
                 if name:
-                    vtxt += f" ({name})"
+                    vtxt += f" ({_type_label(name, f.units)})"
             elif r["role"] == "conductivity":
                 vtxt = f.cond(val)
             else:
@@ -382,9 +381,12 @@ def build_sheet(summary, figures_png, path, *, units="metric", paper="A4", logo=
     _fonts()
     st = _styles()
     f = _Fmt(units)
-    us = f.us
     L_u = f.unit("length")
     text_warnings = []
+
+    def N(text):
+        """A note written by a lower layer (SI text), in the sheet's units."""
+        return _text_in_units(text, units)
 
     def T(text, name="text"):
         """User text, made safe for the sheet font and for reportlab markup."""
@@ -448,22 +450,33 @@ def build_sheet(summary, figures_png, path, *, units="metric", paper="A4", logo=
         for w in d["warnings"]:
             story.append(P("⚠ " + _esc(w), "warn"))
     story.append(P("Key quantities", "h"))
-    lat_total = sum(t["length_m"] for t in s["takeoff"] if t["kind"] == "lateral")
-    main_total = sum(t["length_m"] for t in s["takeoff"] if t["kind"] == "main")
-    qrows = [["Fields", "Area", "Laterals", "Lateral pipe", "Main pipe", "Drained area",
+    # pipe quantities straight from the take-off, so page 1 and the take-off agree
+    piped = [t for t in s["takeoff"] if t.get("length_m")]
+    perforated = [t for t in piped if t.get("perforated", t["kind"] == "lateral")]
+    solid = [t for t in piped if t not in perforated]
+    lat_total = sum(t["length_m"] for t in perforated)
+    solid_total = sum(t["length_m"] for t in solid)
+    qrows = [["Fields", "Area", "Laterals", "Perforated pipe", "Solid pipe", "Drained area",
               "Outlet flow"],
              [str(len(s["fields"])), f.area(q["field_area_ha"]), str(q["laterals"]),
-              f.length(lat_total, 0), f.length(main_total, 0),
+              f.length(lat_total, 0), f.length(solid_total, 0),
               f.area(q["drained_area_ha"]), f.flow(q["outlet_flow_l_s"])]]
     story.append(_table(qrows))
-    sizes = ", ".join(f"{k}: {f.length(v, 0)}" for k, v in q["lateral_length_by_size_m"].items())
-    msizes = ", ".join(f"{k}: {f.length(v, 0)}" for k, v in q["main_length_by_size_m"].items())
+
+    def by_size(rows):
+        out = {}
+        for t in rows:
+            out[t["size"]] = out.get(t["size"], 0.0) + t["length_m"]
+        return ", ".join(f"{k}: {f.length(v, 0)}" for k, v in out.items())
+
+    kinds = []
+    for t in solid:
+        if t["kind"] not in kinds:
+            kinds.append(t["kind"])
     story.append(Spacer(1, 3))
-    conn = q.get("connector_length_m") or 0.0
-    story.append(P(f"Lateral pipe {f.length(lat_total, 0)} of perforated laterals; "
-                   f"{f.length(conn, 0)} of solid connectors, the sub-mains, mains and trunk "
-                   f"are solid pipe (as in the take-off). Laterals by size — {sizes}. Mains "
-                   f"and trunk by size — {msizes}.", "small"))
+    story.append(P(f"Perforated pipe (laterals) by size — {by_size(perforated)}. Solid pipe "
+                   f"({', '.join(kinds)}) by size — {by_size(solid)}. As in the take-off.",
+                   "small"))
     if s["outlets"]:
         def where(o):
             if o.get("geographic"):
@@ -505,7 +518,7 @@ def build_sheet(summary, figures_png, path, *, units="metric", paper="A4", logo=
         if numbers:
             story.append(P("Here: " + numbers, "sym"))
     for n in d["notes"]:
-        story.append(P("• " + _esc(n), "small"))
+        story.append(P("• " + _esc(N(n)), "small"))
     story.append(P("Inputs", "h"))
     soil = s["inputs"]["soil"]
     irows = [["Input", "Value", "Source"]]
@@ -597,15 +610,20 @@ def build_sheet(summary, figures_png, path, *, units="metric", paper="A4", logo=
     problems = s["pipe_problems"]
     if not problems:
         story.append(P("No grade, cover, junction or velocity problem found."))
-    story.append(P("Outlet: " + _esc(s.get("outlet_check", "")) + ".", "small"))
+    story.append(P("Outlet: " + _esc(N(s.get("outlet_check", ""))) + ".", "small"))
     for line in s.get("pipe_problem_summary") or [
             f"{v['reach_id']}: {v['problem']} -> {v['fix']}" for v in problems]:
-        story.append(P("• " + _esc(line.replace(" -> ", " — ")), "small"))
+        story.append(P("• " + _esc(N(line).replace(" -> ", " — ")), "small"))
     if problems:
         story.append(P("Every place is listed in pipe_schedule.csv (warnings column) and the "
                        "pipe_warnings layer.", "small"))
     for n in s["layout_notes"] + s["pipe_notes"]:
-        story.append(P("• " + _esc(n), "small"))
+        story.append(P("• " + _esc(N(n)), "small"))
+
+    # ---- season simulation
+    if s.get("simulation"):
+        story.append(PageBreak())
+        story.extend(_simulation_page(s["simulation"], figures_png, f, P, width))
 
     # ---- cautions
     story.append(PageBreak())
@@ -669,6 +687,136 @@ def build_sheet(summary, figures_png, path, *, units="metric", paper="A4", logo=
     finally:
         rl_config.invariant = old
     return text_warnings
+
+
+def _simulation_page(sim, figures_png, f, P, width):
+    """The season-simulation page: figure, key spacings, method agreement, assumptions."""
+    from reportlab.lib.units import mm
+
+    def sew(v, unit=True):
+        """SEW30 in cm·d (its unit), or in in·d on a US sheet."""
+        if v is None:
+            return "–"
+        text = f"{v / 2.54:.0f}" if f.us else f"{v:.0f}"
+        return f"{text} {'in·d' if f.us else 'cm·d'}" if unit else text
+
+    def note(text):
+        return _esc(_text_in_units(text, f.units))
+
+    sew_u = "in·d" if f.us else "cm·d"
+    depth30 = "11.8 in" if f.us else "30 cm"
+    out = [P("Season simulation over the weather record", "h")]
+    w = sim["weather"]
+    model = ("non-linear Boussinesq flow between the drains with the equivalent depth"
+             if sim["model"] == "boussinesq" else "the de Zeeuw–Hellinga linear reservoir")
+    pet = ("PET from the file" if w["pet_source"] == "file" else
+           f"PET by Hargreaves–Samani at latitude {w['latitude_deg']:.1f}°")
+    basis = "mean season" if sim["target_basis"] == "mean" else "worst season"
+    out.append(P(f"Water table midway between drains simulated day by day with {model}, "
+                 f"weather {_esc(w['file'])} ({w['first_day']} to {w['last_day']}, "
+                 f"{w['days']} days; {pet}); season {_esc(sim['season'])}. SEW30 is the sum "
+                 f"of the water-table height above {depth30} depth over the days of a season "
+                 f"({sew_u}; Sieben 1964), shown for the {basis}.", "small"))
+    if "simulation" in figures_png:
+        out.append(_image(figures_png["simulation"], width * 0.95, fit=True))
+    other = "reservoir" if sim.get("other_model") == "reservoir" else "Boussinesq"
+    rows = [["Spacing", "SEW30\nmean", "SEW30\nworst", "Wet\nd/yr", "Drain", "Runoff",
+             "Peak\ndrain", "99 %\ndrain", "Full pipes\nd/yr", f"SEW30\n{other}"]]
+    yrs = w["days"] / 365.25
+    per_year = f.unit("recharge").replace("/d", "/yr")
+
+    def amount(v_mm, nd):
+        return f"{float(f.to(v_mm / 1000 / yrs, 'recharge')):.{nd}f} {per_year}"
+
+    for name, r in sim["key_spacings"].items():
+        rows.append([f"{f.spacing(r['spacing_m'])} ({name})", sew(r["sew30_cm_d"], False),
+                     sew(r["sew30_worst_year_cm_d"], False), f"{r['wet_days_per_year']:.1f}",
+                     amount(r["drain_mm"], 1 if f.us else 0),
+                     amount(r["runoff_mm"], 2 if f.us else 1),
+                     f.rate(r["peak_drain_mm_d"] / 1000), f.rate(r["p99_drain_mm_d"] / 1000),
+                     f"{r.get('pipe_full_days_per_year', float('nan')):.1f}",
+                     sew(r.get("other_model", {}).get("sew30_cm_d"), False)])
+    out.append(_table(rows, font_size=6.8, widths=[w_ * mm for w_ in
+                                                   (28, 13, 13, 12, 22, 19, 18, 18, 16, 15)]))
+    out.append(P(f"SEW30 in {sew_u} per season; wet days: days with the water table within "
+                 f"{depth30} of the surface; drain and runoff per year; full pipes: days a "
+                 "year the drains carry more than the pipe drainage coefficient "
+                 f"({f.rate(sim['drainage_coefficient_m_per_d'])}).", "small"))
+    a = sim["agreement"]
+    out.append(P("Method agreement", "h2"))
+    arows = [["Analytic spacing (before rounding)", f.spacing(a["analytic_spacing_m"])],
+             ["Design spacing", f.spacing(a["design_spacing_m"])],
+             [f"SEW30 at the design spacing ({basis})", sew(a["design_sew30_cm_d"])]]
+    t = sim.get("target")
+    if t is not None:
+        arows.append([f"SEW30 target ({basis})", sew(t["target_cm_d"])])
+        arows.append(["Widest spacing within the target",
+                      f.spacing(t["spacing_m"]) if t.get("spacing_m") else "none simulated"])
+    out.append(_table(arows, widths=[75 * mm, 45 * mm], header=False))
+    if a.get("reason"):
+        out.append(P(f"Simulated {f.spacing(a['simulated_spacing_m'])} against analytic "
+                     f"{f.spacing(a['analytic_spacing_m'])} ({a['ratio']:.2f}×): "
+                     + note(a["reason"])))
+    elif t is None:
+        out.append(P(f"At the design spacing the simulated SEW30 is "
+                     f"{sew(a['design_sew30_cm_d'])} in the {basis}; no SEW30 target was "
+                     "given, so no simulated spacing is derived."))
+    else:
+        out.append(P(f"At the design spacing the simulated SEW30 is "
+                     f"{sew(a['design_sew30_cm_d'])} in the {basis}; " + note(t["note"]) + "."))
+    out.append(P("Assumptions of the simulation", "h2"))
+    for text in sim["assumptions"]:
+        out.append(P("• " + note(text), "small"))
+    return out
+
+
+#: Metric quantities inside notes written by lower layers, and their display roles with
+#: the factor from the written unit to the stored SI unit.
+_NOTE_UNITS = {"m/s": ("velocity", 1.0), "mm/d": ("recharge", 1e-3), "m/d": ("recharge", 1.0),
+               "L/s": ("flow", 1.0), "ha": ("area", 1.0), "mm": ("radius", 1e-3),
+               "cm": ("radius", 1e-2), "km": ("length", 1e3), "m": ("length", 1.0)}
+
+
+def _text_in_units(text, units):
+    """Notes from the layout, pipe and spacing layers are written in SI; on a US sheet their
+    quantities ('2.00 m', '1.50 m/s', '1070 m') are shown in US units, same precision."""
+    import re
+
+    if units != "us" or not text:
+        return text
+    from .units import display_unit, to_display
+
+    pat = re.compile(r"(?<![\w.])(-?\d+(?:\.\d+)?)\s?(m/s|mm/d|m/d|L/s|ha|mm|cm|km|m)"
+                     r"(?![\w/²³])")
+
+    def sub(mt):
+        num, unit = mt.group(1), mt.group(2)
+        role, to_si = _NOTE_UNITS[unit]
+        nd = len(num.split(".")[1]) if "." in num else 0
+        value = float(to_display(float(num) * to_si, role, units))
+        if role == "recharge":
+            nd = max(nd, 2)
+        return f"{value:.{nd}f} {display_unit(role, units)}"
+
+    return pat.sub(sub, str(text))
+
+
+def _type_label(name, units):
+    """A pipe type name as words, sizes in the sheet's units ('gravel envelope 12 in')."""
+    import re
+
+    from .units import to_display
+
+    def size(m):
+        mm = float(m.group(1))
+        if units == "us":
+            return f" {float(to_display(mm / 1000.0, 'radius', units)):.0f} in"
+        return f" {mm:g} mm"
+
+    text = re.sub(r"-?(\d+(?:\.\d+)?)mm", size, name)
+    text = re.sub(r"-?(\d+)in\b", r" \1 in", text)
+    text = re.sub(r"(\d)row\b", r"\1 row", text)
+    return text.replace("-", " ").replace("  ", " ").strip()
 
 
 def _show_density(v, units):

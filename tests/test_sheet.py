@@ -26,7 +26,8 @@ def _project_copy(tmp_path, edits=(), append=""):
     for old, new in edits:
         assert old in text
         text = text.replace(old, new)
-    for name in ("fields.geojson", "exclusions.geojson", "outlet.geojson", "survey.csv"):
+    for name in ("fields.geojson", "exclusions.geojson", "outlet.geojson", "survey.csv",
+                 "weather.csv"):
         (tmp_path / name).symlink_to(DEMO / name)
     (tmp_path / "project.toml").write_text(text + append)
     return tmp_path / "project.toml"
@@ -269,3 +270,257 @@ def test_sweep_plot_tick_labels_do_not_overlap(lo, hi):
     boxes.sort(key=lambda b: b.x0)
     for a, b in zip(boxes, boxes[1:]):
         assert a.x1 < b.x0, "tick labels overlap"
+
+
+# ---- item 15: US units throughout --------------------------------------------------------
+
+#: A number followed by a metric unit (what must not appear on a US sheet).
+METRIC = __import__("re").compile(
+    r"\d\s?(mm|cm|m|km|ha|L/s|m/d|mm/d|m/s|m/ha|m²|m³|m2|m3)(?![\w/²³])")
+
+
+@pytest.fixture(scope="module")
+def us_sheet(tmp_path_factory):
+    """The demo farm designed in US units, with US criteria (depths in feet, spacing in 5 ft
+    steps)."""
+    from click.testing import CliRunner
+
+    from drainplan.cli import cli
+
+    tmp = tmp_path_factory.mktemp("us")
+    path = _project_copy(tmp, [('units = "metric"', 'units = "us"'),
+                               ('paper = "A4"', 'paper = "Letter"'),
+                               ('spacing_increment = "1 m"', 'spacing_increment = "5 ft"'),
+                               ('depth = ["0.9 m", "1.0 m", "1.1 m"]',
+                                'depth = ["3 ft", "3.5 ft", "4 ft"]'),
+                               ('water_table_depth = "0.3 m"', 'water_table_depth = "1 ft"'),
+                               ('final_depth = "0.3 m"', 'final_depth = "1 ft"')])
+    r = CliRunner().invoke(cli, ["design", str(path), "-o", str(tmp / "out")])
+    assert r.exit_code == 0, r.output
+    return tmp / "out", r
+
+
+def test_us_sheet_has_no_metric_quantity(us_sheet):
+    import pypdf
+
+    out, r = us_sheet
+    pages = [p.extract_text() for p in pypdf.PdfReader(out / "design_sheet.pdf").pages]
+    text = "\n".join(pages)
+    stray = [m.group(0) for m in METRIC.finditer(text)]
+    assert not stray, stray[:10]
+    s = json.loads((out / "summary.json").read_text())
+    # spacing rounded down to whole 5 ft steps (1 ft = 0.3048 m exactly)
+    ft = s["design"]["spacing_m"] / 0.3048
+    assert ft == pytest.approx(round(ft / 5) * 5, abs=1e-6)
+    assert f"{ft:.0f} ft" in pages[0]
+    assert "in/d" in pages[0] and "acre" in pages[0]
+    radius_in = s["inputs"]["drains"]["radius_m"] / 0.0254
+    assert f"{radius_in:.2f} in" in text
+
+
+def test_us_figures_in_feet():
+    import matplotlib
+
+    matplotlib.use("Agg")
+    from matplotlib.figure import Figure
+
+    from drainplan.plots import cross_section, falling_water_table, profile_plot
+
+    x = np.linspace(0, 15.24, 31)
+    fd = {"x": x, "spacing": 15.24, "drain_depth": 1.2192, "barrier_depth": 3.048,
+          "interface_depth": None, "radius": 0.059, "layer_bottoms": None,
+          "steady_depth": 1.2192 - 0.5 * np.sin(np.pi * x / 15.24), "steady_target": 0.3048,
+          "falling_t": np.linspace(0, 2, 5), "falling_mid_depth": np.linspace(0, 0.6, 5),
+          "falling_days": 1.0, "falling_target": 0.3048,
+          "falling_profiles": {0.0: np.full(31, 0.1), 1.0: np.full(31, 0.3)}}
+    fig = Figure()
+    ax = cross_section(fd, ax=fig.add_subplot(), units="us")
+    assert "(ft)" in ax.get_ylabel() and "(ft)" in ax.get_xlabel()
+    assert ax.get_xlim() == pytest.approx((-50.0, 100.0))          # 50 ft spacing
+    assert any(t.get_text() == "L = 50 ft" for t in ax.texts)
+    a1, a2 = falling_water_table(fd, axes=Figure().subplots(1, 2), units="us")
+    assert "(ft)" in a1.get_ylabel() and "(ft)" in a2.get_xlabel()
+    ax = profile_plot({"chainage": np.array([0.0, 30.48]), "ground": np.array([100.0, 101.0]),
+                       "invert": np.array([99.0, 99.5])}, ax=Figure().add_subplot(),
+                      units="us")
+    assert ax.get_xlabel() == "chainage (ft)"
+    assert ax.lines[0].get_xdata()[-1] == pytest.approx(100.0)
+
+
+def test_us_templates_state_us_values():
+    import tomllib
+
+    from drainplan.project import SCHEMA
+
+    tdir = ROOT / "drainplan" / "templates"
+    for path in tdir.glob("project_*.toml"):
+        data = tomllib.loads(path.read_text())
+        if data["report"]["units"] != "us":
+            continue
+        for section, keys in data.items():
+            for key, value in keys.items():
+                kind = SCHEMA[section].get(key, ("text",))[0]
+                values = value if isinstance(value, list) else [value]
+                for v in values:
+                    if kind in ("length", "rate", "depths") and isinstance(v, str):
+                        assert not METRIC.search(v), (path.name, section, key, v)
+                        assert any(u in v for u in ("ft", "in")), (path.name, key, v)
+
+
+# ---- item 16: sheet polish -------------------------------------------------------------
+
+def test_cross_section_marks(demo):
+    import matplotlib
+
+    matplotlib.use("Agg")
+    from matplotlib.figure import Figure
+
+    from drainplan.plots import cross_section
+
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    fig = Figure(figsize=(8, 3.3))
+    FigureCanvasAgg(fig)
+    ax = cross_section(demo.figures, ax=fig.add_subplot(), units="metric")
+    texts = {t.get_text(): t for t in ax.texts}
+    assert "ground surface" in texts
+    label = next(t for k, t in texts.items() if k.startswith("L = "))
+    zd = demo.figures["drain_depth"]
+    # the dimension arrow runs below drain level, where the water table never is
+    assert label.get_position()[1] > zd
+    assert np.max(demo.figures["steady_depth"]) <= zd + 1e-9
+    # the barrier label and the legend do not overlap
+    fig.canvas.draw()
+    r = fig.canvas.get_renderer()
+    barrier = next(t for k, t in texts.items() if k.startswith("barrier"))
+    assert not barrier.get_window_extent(r).overlaps(ax.get_legend().get_window_extent(r))
+
+
+def test_plan_legend_names_holes():
+    import geopandas as gpd
+    import matplotlib
+
+    matplotlib.use("Agg")
+    from matplotlib.figure import Figure
+    from shapely.geometry import Polygon
+
+    from drainplan.plots import plan_map
+
+    field = Polygon([(0, 0), (300, 0), (300, 200), (0, 200)],
+                    [[(50, 50), (100, 50), (100, 100), (50, 100)]])
+    layers = {"field": gpd.GeoDataFrame({"field_id": ["A"]}, geometry=[field],
+                                        crs="EPSG:32615")}
+    ax = plan_map(layers, ax=Figure().add_subplot(), units="us")
+    labels = [t.get_text() for t in ax.get_legend().get_texts()]
+    assert any("hole" in t for t in labels)
+    assert any(t.get_text().endswith(" ft") for t in ax.texts)           # scale bar
+
+
+def test_sheet_polish(demo, tmp_path):
+    import re
+
+    import pypdf
+
+    from drainplan.outputs import render_figures
+    from drainplan.sheet import build_sheet
+
+    build_sheet(demo.summary, render_figures(demo), str(tmp_path / "s.pdf"))
+    pages = [p.extract_text() for p in pypdf.PdfReader(tmp_path / "s.pdf").pages]
+    text = "\n".join(pages)
+    assert not re.search(r"\d(d|h)\b", text)                       # "1 d", not "1d"
+    assert not re.search(r"\d+\.\d{7,}", text)                     # no 7-decimal coordinates
+    for o in demo.summary["outlets"]:
+        assert f"{abs(o['y']):.6f}°" in pages[0]
+    # take-off and page 1 agree: perforated pipe = the laterals of the layout, solid pipe =
+    # the rest of the take-off's pipe
+    take = [t for t in demo.summary["takeoff"] if t["length_m"]]
+    lat = sum(t["length_m"] for t in take if t["kind"] == "lateral")
+    solid = sum(t["length_m"] for t in take if t["kind"] != "lateral")
+    q = demo.summary["quantities"]
+    assert lat == pytest.approx(q["lateral_length_m"], abs=0.5)
+    assert f"{lat:.0f} m" in pages[0] and f"{solid:.0f} m" in pages[0]
+    # no heading left alone at the foot of a page
+    headings = {"Design", "Warnings", "Key quantities", "Inputs", "Fields", "Profiles",
+                "Quantity take-off", "References", "Sensitivity of the design spacing",
+                "Other methods at the design depth", "Drain depth against spacing",
+                "Grade, capacity and layout warnings", "Cautions"}
+    for i, page in enumerate(pages):
+        lines = [ln.strip() for ln in page.splitlines() if ln.strip()]
+        body = [ln for ln in lines if not ln.startswith(("drainplan design sheet", "page ",
+                                                         "A design aid"))]
+        assert body and body[-1] not in headings, (i + 1, body[-1])
+    # sensitivity: one row per input, the base case once
+    sens = text[text.index("Sensitivity of the design spacing"):text.index("Other methods")]
+    assert sens.count("scaled together") == 1 and "same depth" not in sens
+
+
+# ---- item 18 and issue 15: a long project stays a short sheet -------------------------------
+
+def test_long_schedule_goes_to_the_csv(demo, tmp_path):
+    import copy
+    import time
+
+    import pypdf
+
+    from drainplan.outputs import render_figures
+    from drainplan.sheet import MAX_SCHEDULE_ROWS, build_sheet
+
+    s = copy.deepcopy(demo.summary)
+    s["reaches"] = [dict(r, reach_id=f"{r['reach_id']}-{i}") for i in range(40)
+                    for r in s["reaches"]]                      # ~6,800 reaches
+    s["fields"] = [dict(f, field_id=f"{f['field_id']}{i}") for i in range(17)
+                   for f in s["fields"]]                        # 51 fields
+    t0 = time.perf_counter()
+    build_sheet(s, render_figures(demo), str(tmp_path / "long.pdf"))
+    elapsed = time.perf_counter() - t0
+    reader = pypdf.PdfReader(tmp_path / "long.pdf")
+    text = "\n".join(p.extract_text() for p in reader.pages)
+    assert len(reader.pages) <= 20
+    assert "pipe_schedule.csv" in text and f"{len(s['reaches'])} reaches" in text
+    assert MAX_SCHEDULE_ROWS < len(s["reaches"])
+    for f in s["fields"][:: 10]:
+        assert f["field_id"] in text                            # per-field table complete
+    assert elapsed < 30        # loose bound; 6k rows took 7.6 s as one table before
+
+
+# ---- issue 14 item 16: text the sheet font can show ----------------------------------------
+
+@pytest.mark.parametrize("name,ok", [
+    ("Ferme du Pré-Vert", True), ("Ферма Озёрная", True), ("Αγρόκτημα", True),
+    ("农场", False), ("खेत", False), ("Farm 🌾", False), ("مزرعة", False), ("חווה", False)])
+def test_site_name_scripts(name, ok):
+    from drainplan._text import check_text
+    from drainplan.errors import InputError
+
+    if ok:
+        assert check_text(name, "site.name") == (name, [])
+    else:
+        with pytest.raises(InputError, match="site.name"):
+            check_text(name, "site.name")
+
+
+def test_control_characters_and_file_names():
+    from drainplan._text import check_text, sheet_text
+
+    clean, warns = check_text("North\x07 field\u202e\tA", "site.name")
+    assert clean == "North field A" and "control characters" in warns[0]
+    w = []
+    assert sheet_text("F农1", "field id", w) == "F?1" and "cannot be shown" in w[0]
+
+
+def test_design_refuses_unprintable_site_name(run, tmp_path):
+    path = _project_copy(tmp_path, [('name = "Willow Run demo farm (invented)"',
+                                     'name = "柳溪农场 (invented)"')])
+    r = run("design", path, "-o", tmp_path / "out")
+    assert r.exit_code == 2 and "site.name" in r.stderr and "CJK" in r.stderr
+    assert not (tmp_path / "out").exists()
+
+
+def test_field_table_adds_up(demo):
+    s = demo.summary
+    q = s["quantities"]
+    assert sum(f["outlet_flow_l_s"] for f in s["fields"]) == pytest.approx(
+        q["outlet_flow_l_s"], abs=0.01)
+    assert sum(f["lateral_length_m"] for f in s["fields"]) == pytest.approx(
+        q["lateral_length_m"], abs=0.01)
+    assert all(f["spacing_m"] == s["design"]["spacing_m"] for f in s["fields"])

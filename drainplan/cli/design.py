@@ -56,6 +56,10 @@ def init(directory, template, overwrite):
                f"{d / 'design'}")
 
 
+_METHOD_WORDS = {"hooghoudt": "Hooghoudt", "ernst": "Ernst", "kirkham": "Kirkham",
+                 "glover-dumm": "Glover–Dumm"}
+
+
 @click.command(short_help="Run the whole design from a project file.")
 @click.argument("project_path", metavar="PROJECT.toml", type=click.Path(dir_okay=False))
 @click.option("-o", "--output", required=True, type=click.Path(file_okay=False),
@@ -99,12 +103,16 @@ def design(ctx, project_path, output, overwrite, as_json):
     d, q = s["design"], s["quantities"]
     u = project.report.get("units", "metric")
     click.echo(f"Design: drains {show(d['drain_depth_m'], 'length', u, 2)} deep, "
-               f"{show(d['spacing_m'], 'length', u, 1)} apart ({d['method']}, "
+               f"{show(d['spacing_m'], 'length', u, 1)} apart "
+               f"({_METHOD_WORDS.get(d['method'], d['method'])}, "
                f"{d['governing_criterion']} criterion governs)")
     click.echo(f"Laterals {q['laterals']} ({show(q['lateral_length_m'], 'length', u, 0)}), mains "
                f"{show(q['main_length_m'], 'length', u, 0)}, drained area "
                f"{show(q['drained_area_ha'], 'area', u, 2)}, outlet flow "
                f"{show(q['outlet_flow_l_s'], 'flow', u, 1 if u == 'metric' else 2)}")
+    if not quiet:
+        for w in d.get("warnings") or []:
+            click.echo(f"warning: {w}", err=True)
     if s["pipe_problems"]:
         click.echo(f"{len(s['pipe_problems'])} pipe problem(s): see the design sheet")
     click.echo(f"Design sheet: {out / 'design_sheet.pdf'}")

@@ -127,6 +127,12 @@ def layout(fields, spacing, direction, setback, output, layer, id_field, crs, wo
     out = Path(output)
     if out.suffix.lower() != ".gpkg":
         raise InputError("output must be a GeoPackage file ending in .gpkg", param="output")
+    from ..gisio import check_input_file
+
+    for f, what, opt in ((fields, "fields", "fields"), (exclude_path, "exclusions", "exclude"),
+                         (main_path, "main", "main"), (survey_path, "survey", "survey")):
+        if f:
+            check_input_file(f, what=what, param=opt)                 # before any work
     check_layout_targets(out, plot_path=plot_path, geojson_dir=geojson_dir,
                          overwrite=overwrite)                 # every target, before any work
     check_order("offset", offset, "spacing", spacing, low_name="--offset",

@@ -98,8 +98,14 @@ def pipes(layout_path, coefficient, survey_path, survey_crs, survey_z_unit, dem_
 
     if not Path(layout_path).exists():
         raise InputError(f"layout file not found: {layout_path}", param="layout")
-    from ..gisio import check_output_target
+    from ..gisio import check_input_file, check_output_target
 
+    if survey_path and dem_path:
+        raise InputError("give either a survey or a DEM, not both", param="survey")
+    for f, what, opt in ((layout_path, "layout", "layout"), (survey_path, "survey", "survey"),
+                         (dem_path, "DEM", "dem"), (sizes_path, "pipe sizes", "sizes")):
+        if f:
+            check_input_file(f, what=what, param=opt)                 # before any work
     for t, opt in ((output, "output"), (gpkg_path, "gpkg"), (plot_path, "plot")):
         if t:
             check_output_target(t, overwrite=overwrite, param=opt)   # before any work

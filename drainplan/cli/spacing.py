@@ -194,8 +194,8 @@ def _radii_listing(units, as_json):
     digits = 2 if units == "us" else 1
     ru = display_unit("radius", units)
     width = max(len(r["name"]) for r in rows)
-    lines = [f"Effective drain radius by pipe type (give the type or a length to "
-             f"--drain-radius)", f"  {'type':<{width}}  {'radius (' + ru + ')':>12}  description"]
+    lines = ["Effective drain radius by pipe type (give the type or a length to "
+             "--drain-radius)", f"  {'type':<{width}}  {'radius (' + ru + ')':>12}  description"]
     for r in rows:
         lines.append(f"  {r['name']:<{width}}  "
                      f"{float(to_display(r['radius_m'], 'radius', units)):>12.{digits}f}  "
