@@ -40,7 +40,7 @@ from pathlib import Path
 
 import numpy as np
 
-from .errors import ConvergenceWarning, DrainplanError, InputError
+from .errors import ConvergenceWarning, InputError
 from .units import parse_quantity, show
 
 __all__ = ["Proposal", "CheckResult", "SPACING_CRITERIA", "read_proposal", "check_proposal",
@@ -496,7 +496,9 @@ def _layout_lines(p, prop, work_crs):
     outs = lp.layers["outlets"].to_crs(work_crs)
     outlet_pts = [tuple(g.coords[0]) for g, k in zip(outs.geometry, outs["kind"])
                   if k == "main outlet"]
-    return gpd.GeoDataFrame(rows, geometry=geoms, crs=work_crs), outlet_pts
+    res = gpd.GeoDataFrame(rows, geometry=geoms, crs=work_crs)
+    res.attrs["sub_main_pieces"] = int(len(unc))
+    return res, outlet_pts
 
 
 def check_proposal(project, proposal, *, units=None, progress=None):
@@ -540,6 +542,10 @@ def check_proposal(project, proposal, *, units=None, progress=None):
         source = "numbers"
         notes.append(f"numbers only: laterals laid out by drainplan at the proposed spacing "
                      f"{nums['lateral_spacing']:g} m with the project's layout options")
+        k = lines.attrs.get("sub_main_pieces", 0)
+        if k:
+            notes.append(f"{k} lateral piece(s) beyond exclusions need a sub-main to the "
+                         "field's main (their flow is counted in that main)")
     else:
         lines = proposal.lines.to_crs(work_crs)
         source = "drawn"
@@ -569,16 +575,16 @@ def check_proposal(project, proposal, *, units=None, progress=None):
             return np.asarray(surface(np.asarray(xy, float)), float)
     net = join_network(shapely.force_2d(lat_g), shapely.force_2d(main_g),
                        tolerance=JOIN_TOLERANCE, outlet=outlet_pts, elevation_of=elev)
+    free = np.flatnonzero(net.lateral_main < 0)
     if source == "numbers" and main_g.size:
-        # layout pieces reach their main through connectors: join by field
+        # layout pieces reach their main through connectors or sub-mains: join by field
         hint_main = {h: i for i, h in enumerate(main_rows["field_hint"])}
         for i, h in enumerate(lat_rows["field_hint"]):
             if net.lateral_main[i] < 0 and h in hint_main:
                 net.lateral_main[i] = hint_main[h]
-    free = np.flatnonzero(net.lateral_main < 0)
     if free.size and (has_z or elev is not None):
-        # a lateral that reaches no main drains to its lower end (its Z values, or the
-        # ground)
+        # a lateral that reaches no main directly drains to its lower end (its Z values,
+        # or the ground)
         za, zb = np.full(free.size, np.nan), np.full(free.size, np.nan)
         for k, i in enumerate(free):
             g = lat_g[i]
@@ -604,7 +610,23 @@ def check_proposal(project, proposal, *, units=None, progress=None):
 
     # --- depth and radius of each lateral
     design_depths = p.drains["depth"]
-    depth = lat_rows["depth_m"].to_numpy(float)
+    depth = lat_rows["depth_m"].to_numpy(float).copy()
+    if has_z and surface is not None:
+        # surveyed inverts under surveyed ground: the depth as installed (mean along it)
+        n_z = 0
+        for i in np.flatnonzero(np.isnan(depth) & inside):
+            if shapely.has_z(lat_g[i]):
+                c = shapely.get_coordinates(lat_g[i], include_z=True)
+                depth[i] = float(np.mean(elev(c[:, :2]) - c[:, 2]))
+                n_z += 1
+        if n_z:
+            notes.append(f"{n_z} lateral depth(s) from the surveyed ground above the lines' "
+                         "Z values (mean along each lateral)")
+            bad = np.flatnonzero(inside & ~(depth > 0))
+            if bad.size:
+                raise InputError(f"lateral {lat_ids[bad[0]]}: its Z "
+                                 "values lie above the surveyed ground (Z must be the pipe "
+                                 "invert, in the survey's datum)", param="proposal")
     default_depth = nums.get("depth")
     if default_depth is None and len(design_depths) == 1:
         default_depth = design_depths[0]
@@ -681,10 +703,10 @@ def check_proposal(project, proposal, *, units=None, progress=None):
             g[i] = (iu - idn) / L
         return g, inv_up, inv_dn
 
-    lat_grade, lat_iu, lat_id = grades(lat_g, net.lateral_upstream, net.lateral_junction,
+    lat_grade, _, _ = grades(lat_g, net.lateral_upstream, net.lateral_junction,
                                        depth)
     main_depth = pp.get("main_depth", float(np.nanmax(depth)) + 0.3)
-    main_grade, main_iu, main_id = grades(main_g, net.main_upstream_point,
+    main_grade, _, _ = grades(main_g, net.main_upstream_point,
                                           net.main_outlet_point, np.full(main_g.size,
                                                                          main_depth))
     elevations = bool(np.isfinite(lat_grade).any())
@@ -726,7 +748,6 @@ def check_proposal(project, proposal, *, units=None, progress=None):
     strip_area = np.where(inside, geo.strip_area, 0.0)
     lat_flow = coef * strip_area / 86400.0                     # m3/s, Q = DC x A
     nm = main_g.size
-    main_flow = np.zeros(nm)
     main_area = np.zeros(nm)
     for i, m in enumerate(net.lateral_main):
         if m >= 0 and inside[i]:
@@ -968,6 +989,7 @@ def check_proposal(project, proposal, *, units=None, progress=None):
         d = net.main_downstream[m]
         if d >= 0 and bad_main[d]:
             bad_main[m] = True
+            main_fail[m].append("main downstream")
     for i, m in enumerate(net.lateral_main):
         if m >= 0 and bad_main[m]:
             lat_fail[i].append("main downstream")

@@ -300,7 +300,72 @@ def design(project, *, progress=None):
                                                                   falling)
     summary["design"]["notes"] += extra_notes
     summary["design"]["warnings"] = text_warnings + summary["design"]["warnings"]
+    if "weather" in p.simulation:
+        say("season simulation")
+        summary["simulation"], figures["simulation"] = _season_simulation(
+            p, depth, spacing, raw_spacing, coef, lp)
+        summary["references"] += SIMULATION_REFERENCES
     return DesignResult(p, summary, lp, pipes_plan, figures)
+
+
+#: Citations added to the sheet when the project has a [simulation] section.
+SIMULATION_REFERENCES = [
+    "Boussinesq, J. (1904). Recherches théoriques sur l'écoulement des nappes d'eau "
+    "infiltrées dans le sol et sur le débit des sources. Journal de Mathématiques Pures et "
+    "Appliquées 10: 5-78.",
+    "de Zeeuw, J.W. and Hellinga, F. (1958). Neerslag en afvoer. Landbouwkundig Tijdschrift "
+    "70: 405-422.",
+    "Sieben, W.H. (1964). Het verband tussen ontwatering en opbrengst bij de jonge "
+    "zavelgronden in de Noordoostpolder. Van Zee tot Land 40. Tjeenk Willink, Zwolle.",
+    "Allen, R.G., Pereira, L.S., Raes, D. and Smith, M. (1998). Crop evapotranspiration. "
+    "FAO Irrigation and Drainage Paper 56, FAO, Rome (Hargreaves-Samani, Eq. 52).",
+]
+
+
+def _season_simulation(p, depth, spacing, raw_spacing, coef, lp):
+    """[simulation]: the water table over the project's weather record at the design depth."""
+    from .simulation_plan import SimulationSite, design_simulation
+    from .weather import parse_season, read_weather
+
+    sim = p.simulation
+    s = _soil_at(p, depth)
+    profile = None
+    if "layers" in p.soil and "drainable_porosity" not in p.soil and all(
+            "drainable_porosity" in ly for ly in p.soil["layers"]):
+        bottoms = np.cumsum([ly["thickness"] for ly in p.soil["layers"]])
+        profile = tuple((float(b), float(ly["drainable_porosity"]))
+                        for b, ly in zip(bottoms, p.soil["layers"]))
+    mu = None if profile else s.get("drainable_porosity")
+    if mu is None and profile is None:
+        raise InputError(f"{p.path.name}: [simulation] needs soil.drainable_porosity (or one "
+                         "for every soil layer)", param="project")
+    site = SimulationSite(drain_depth=depth, barrier_depth=s["barrier_depth"],
+                          drain_radius=p.drains["radius"],
+                          k_below=s.get("k", s.get("k_below")),
+                          k_above=s.get("k", s.get("k_above")), drainable_porosity=mu,
+                          porosity_profile=profile,
+                          root_zone_depth=sim.get("root_zone_depth", 0.5),
+                          equivalent_depth_method=p.drains.get("equivalent_depth", "series"))
+    latitude = sim.get("latitude")
+    if latitude is None:                      # the fields' latitude, for Hargreaves-Samani
+        try:
+            c = lp.layers["field"].to_crs("EPSG:4326").geometry.union_all().centroid
+            latitude = float(c.y)
+        except Exception:                     # a layer without a usable CRS: ask for it
+            latitude = None
+    try:
+        weather = read_weather(sim["weather"], latitude=latitude)
+    except InputError as exc:
+        raise InputError(f"{p.path.name}: simulation.weather: {exc}", param="project") from None
+    season = parse_season(sim.get("season"))
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", ConvergenceWarning)
+        return design_simulation(site, weather, spacing=spacing, analytic_spacing=raw_spacing,
+                                 coefficient=coef, season=season,
+                                 target=sim.get("target_sew30"),
+                                 basis=sim.get("target_basis", "mean"),
+                                 model=sim.get("model", "boussinesq"),
+                                 season_text=sim.get("season", "all"))
 
 
 #: Spacing rounding for a project shown in US units when the project gives none: 5 ft

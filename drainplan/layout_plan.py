@@ -155,6 +155,10 @@ def plan_layout(inp: LayoutInputs) -> LayoutPlan:
     elif inp.outlet is not None:
         pt = gpd.GeoSeries([shapely.Point(inp.outlet)], crs=file_crs).to_crs(work_crs)
         outlet_pts = shapely.get_coordinates(pt.values)
+    if len(outlet_pts):
+        from .gisio import check_outlet_near
+
+        check_outlet_near(outlet_pts, geoms, file_crs)
 
     user_mains = None
     if inp.main_path is not None:

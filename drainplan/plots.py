@@ -12,7 +12,8 @@ from __future__ import annotations
 import numpy as np
 
 __all__ = ["plan_map", "save_figure", "cross_section", "falling_water_table", "profile_plot",
-           "key_profiles", "spacing_against_k", "design_figures"]
+           "key_profiles", "spacing_against_k", "design_figures", "simulated_water_table",
+           "sew30_against_spacing", "drain_exceedance", "season_simulation_panels"]
 
 
 def _u(units):
@@ -386,6 +387,10 @@ def design_figures(result, units=None):
         fig.subplots_adjust(left=0.09, right=0.98, bottom=0.17, top=0.9, wspace=0.12)
         falling_water_table(fd, axes=fig.subplots(1, 2), units=units)
         out["falling"] = _png(fig)
+    if "simulation" in fd:
+        fig = Figure(figsize=(8, 6.4))
+        season_simulation_panels(fd["simulation"], fig=fig, units=units)
+        out["simulation"] = _png(fig)
     fig = Figure(figsize=(8, 2.8))
     fig.subplots_adjust(left=0.09, right=0.98, bottom=0.17, top=0.9, wspace=0.28)
     if key_profiles(result.pipes_plan.design, axes=fig.subplots(1, 2), units=units) is not None:
@@ -420,7 +425,8 @@ def simulated_water_table(dates, depths, *, ax=None, units="metric", drain_depth
         ax.plot(t, to_display(z, "length", units), color=color, linewidth=1.1,
                 label=f"L = {to_display(L, 'spacing', units):.0f} {display_unit('spacing', units)}")
     ax.axhline(to_display(0.30, "length", units), color="#c0392b", linestyle="--",
-               linewidth=0.8, label="30 cm (SEW30)")
+               linewidth=0.8, label="SEW30 depth (11.8 in)" if units == "us"
+               else "30 cm (SEW30)")
     if drain_depth is not None:
         ax.axhline(to_display(drain_depth, "length", units), color="#555555", linestyle=":",
                    linewidth=0.8, label="drain level")
@@ -437,7 +443,7 @@ def simulated_water_table(dates, depths, *, ax=None, units="metric", drain_depth
 
 
 def sew30_against_spacing(spacings, sew30, *, ax=None, units="metric", target=None,
-                          other=None, marks=None, title=None):
+                          other=None, marks=None, title=None, label="Boussinesq"):
     """SEW30 per season against drain spacing, with the target.
 
     Parameters
@@ -445,11 +451,12 @@ def sew30_against_spacing(spacings, sew30, *, ax=None, units="metric", target=No
     spacings : array_like
         Drain spacings [m].
     sew30 : array_like
-        SEW30 [cm d] per season (mean or worst year, as labelled by the caller).
+        SEW30 [cm d] per season (mean or worst year, as labelled by the caller); drawn in
+        in·d with ``units="us"``.
     target : float, optional
         SEW30 target [cm d].
-    other : (label, array_like), optional
-        The other model's SEW30, drawn dashed.
+    other : (label, values) or (label, spacings, values), optional
+        The other model's SEW30 (on ``spacings`` unless given), drawn dashed.
     marks : dict of str -> float, optional
         Spacings to mark with vertical lines (label -> spacing [m]).
     """
@@ -460,20 +467,24 @@ def sew30_against_spacing(spacings, sew30, *, ax=None, units="metric", target=No
     if ax is None:
         _, ax = plt.subplots(figsize=(4, 3))
     su = display_unit("spacing", units)
+    # SEW30 is defined in cm·d; a US sheet shows in·d
+    k, sew_u = (1 / 2.54, "in·d") if units == "us" else (1.0, "cm·d")
     L = to_display(np.asarray(spacings, float), "spacing", units)
-    ax.plot(L, sew30, marker="o", markersize=3, color="#1f5f99", linewidth=1.4,
-            label="Boussinesq")
+    ax.plot(L, k * np.asarray(sew30, float), marker="o", markersize=3, color="#1f5f99",
+            linewidth=1.4, label=label)
     if other is not None:
-        ax.plot(L, other[1], color="#888888", linestyle="--", linewidth=1.0, label=other[0])
+        lo = L if len(other) == 2 else to_display(np.asarray(other[1], float), "spacing", units)
+        ax.plot(lo, k * np.asarray(other[-1], float), color="#888888", linestyle="--",
+                linewidth=1.0, label=other[0])
     if target is not None:
-        ax.axhline(target, color="#c0392b", linestyle="--", linewidth=0.9,
-                   label=f"target {target:g} cm·d")
+        ax.axhline(k * target, color="#c0392b", linestyle="--", linewidth=0.9,
+                   label=f"target {k * target:.3g} {sew_u}")
     for (label, value), style in zip((marks or {}).items(), (":", "-.", "--")):
         if value is not None:
             ax.axvline(to_display(value, "spacing", units), color="#444444", linestyle=style,
                        linewidth=0.9, label=label)
     ax.set_xlabel(f"drain spacing ({su})")
-    ax.set_ylabel("SEW30 per season (cm·d)")
+    ax.set_ylabel(f"SEW30 per season ({sew_u})")
     ax.grid(True, color="#dddddd", linewidth=0.5)
     ax.legend(fontsize=7, frameon=False)
     if title:
@@ -516,3 +527,45 @@ def drain_exceedance(discharges, *, ax=None, units="metric", coefficient=None, t
     if title:
         ax.set_title(title, fontsize=10)
     return ax
+
+
+def season_simulation_panels(data, *, fig=None, units="metric"):
+    """The season-simulation figure: water table over the wettest season (top), SEW30
+    against spacing with the target (bottom left), drain-discharge exceedance with the
+    pipe drainage coefficient (bottom right).
+
+    Parameters
+    ----------
+    data : dict
+        ``dates``, ``year``, ``depths`` (spacing -> daily depth), ``spacings``, ``sew30``,
+        ``other`` (label, values) or None, ``target``, ``basis``, ``marks``,
+        ``discharges`` (spacing -> daily m/d), ``coefficient``, ``drain_depth``.
+
+    Returns
+    -------
+    list of matplotlib Axes
+    """
+    import matplotlib.pyplot as plt
+
+    from .units import display_unit, to_display
+
+    if fig is None:
+        fig = plt.figure(figsize=(8, 6.4))
+    gs = fig.add_gridspec(2, 2, left=0.09, right=0.83, bottom=0.08, top=0.95,
+                          hspace=0.5, wspace=0.32)
+    ax1 = fig.add_subplot(gs[0, :])
+    simulated_water_table(data["dates"], data["depths"], ax=ax1, units=units,
+                          drain_depth=data.get("drain_depth"),
+                          title=f"Wettest season ({data['year']}): midway water table")
+    ax2 = fig.add_subplot(gs[1, 0])
+    basis = "mean season" if data.get("basis", "mean") == "mean" else "worst season"
+    sew30_against_spacing(data["spacings"], data["sew30"], ax=ax2, units=units,
+                          target=data.get("target"), other=data.get("other"),
+                          marks=data.get("marks"), title=f"SEW30, {basis}",
+                          label=data.get("label", "Boussinesq"))
+    ax3 = fig.add_subplot(gs[1, 1])
+    su = display_unit("spacing", units)
+    drain_exceedance({f"L = {to_display(L, 'spacing', units):.0f} {su}": q
+                      for L, q in sorted(data["discharges"].items())}, ax=ax3, units=units,
+                     coefficient=data.get("coefficient"), title="Daily drain discharge")
+    return [ax1, ax2, ax3]

@@ -71,6 +71,12 @@ SCHEMA = {
               "sizes": ("path", False), "accept_coefficient_below_peak": ("bool", False)},
     "report": {"units": ("choice:metric|us", False), "paper": ("choice:A4|Letter", False),
                "logo": ("path", False)},
+    # season simulation over a daily weather record (weather is required in the section)
+    "simulation": {"weather": ("path", False), "season": ("text", False),
+                   "target_sew30": ("number", False),
+                   "target_basis": ("choice:mean|worst-year", False),
+                   "model": ("choice:boussinesq|reservoir", False),
+                   "latitude": ("number", False), "root_zone_depth": ("length", False)},
 }
 _REQUIRED_SECTIONS = ("site", "fields", "soil", "drains")
 
@@ -87,7 +93,8 @@ FILE_LIMITS = {("report", "logo"): ("logo", 20 * 2**20, True),
                ("fields", "outlet"): ("outlet", None, False),
                ("pipes", "survey"): ("survey", None, False),
                ("pipes", "dem"): ("DEM", None, False),
-               ("pipes", "sizes"): ("pipe sizes", None, False)}
+               ("pipes", "sizes"): ("pipe sizes", None, False),
+               ("simulation", "weather"): ("weather", 200 * 2**20, False)}
 _DEFAULT_FILE_LIMIT = 4 * 2**30
 
 
@@ -119,6 +126,7 @@ class Project:
     pipes: dict
     report: dict
     raw: dict = field(default_factory=dict, repr=False)
+    simulation: dict = field(default_factory=dict)
 
     def input_files(self):
         """Every file the project reads: the project file itself and each referenced
@@ -310,6 +318,7 @@ def load_project(path, *, check_files=True):
         raise InputError(f"{p.name}: soil.drainable_porosity is required with the falling "
                          "criterion", param="project")
     _cross_checks(p.name, out)
+    _check_simulation(p.name, raw, out["simulation"])
     project = Project(path=p, raw=raw, **out)
     if check_files:
         for section, keys in SCHEMA.items():
@@ -336,3 +345,28 @@ def _cross_checks(fname, out):
                         high_name=f"{section}.{hi}")
         except InputError as exc:
             raise InputError(f"{fname}: {exc}", param="project") from None
+
+
+def _check_simulation(name, raw, sim):
+    """[simulation]: the weather file is required; season, target and latitude checked."""
+    if "simulation" not in raw:
+        return
+    if "weather" not in sim:
+        raise InputError(f"{name}: simulation.weather (a daily weather CSV) is required in "
+                         "[simulation]", param="project")
+    from .weather import parse_season
+
+    try:
+        parse_season(sim.get("season"))
+    except InputError as exc:
+        raise InputError(f"{name}: simulation.{exc}", param="project") from None
+    if sim.get("target_sew30") is not None and not sim["target_sew30"] >= 0:
+        raise InputError(f"{name}: simulation.target_sew30 must be 0 cm·d or more",
+                         param="project")
+    lat = sim.get("latitude")
+    if lat is not None and not -90 <= lat <= 90:
+        raise InputError(f"{name}: simulation.latitude must lie between -90 and 90 degrees",
+                         param="project")
+    if sim.get("root_zone_depth") is not None and not sim["root_zone_depth"] > 0:
+        raise InputError(f"{name}: simulation.root_zone_depth must be greater than 0 m",
+                         param="project")

@@ -630,6 +630,11 @@ def build_sheet(summary, figures_png, path, *, units="metric", paper="A4", logo=
     for n in s["layout_notes"] + s["pipe_notes"]:
         story.append(P("• " + _esc(N(n)), "small"))
 
+    # ---- season simulation
+    if s.get("simulation"):
+        story.append(PageBreak())
+        story.extend(_simulation_page(s["simulation"], figures_png, f, P, width))
+
     # ---- cautions
     story.append(PageBreak())
     story.append(P("Cautions", "h"))
@@ -692,6 +697,87 @@ def build_sheet(summary, figures_png, path, *, units="metric", paper="A4", logo=
     finally:
         rl_config.invariant = old
     return text_warnings
+
+
+def _simulation_page(sim, figures_png, f, P, width):
+    """The season-simulation page: figure, key spacings, method agreement, assumptions."""
+    from reportlab.lib.units import mm
+
+    def sew(v, unit=True):
+        """SEW30 in cm·d (its unit), or in in·d on a US sheet."""
+        if v is None:
+            return "–"
+        text = f"{v / 2.54:.0f}" if f.us else f"{v:.0f}"
+        return f"{text} {'in·d' if f.us else 'cm·d'}" if unit else text
+
+    def note(text):
+        return _esc(_text_in_units(text, f.units))
+
+    sew_u = "in·d" if f.us else "cm·d"
+    depth30 = "11.8 in" if f.us else "30 cm"
+    out = [P("Season simulation over the weather record", "h")]
+    w = sim["weather"]
+    model = ("non-linear Boussinesq flow between the drains with the equivalent depth"
+             if sim["model"] == "boussinesq" else "the de Zeeuw–Hellinga linear reservoir")
+    pet = ("PET from the file" if w["pet_source"] == "file" else
+           f"PET by Hargreaves–Samani at latitude {w['latitude_deg']:.1f}°")
+    basis = "mean season" if sim["target_basis"] == "mean" else "worst season"
+    out.append(P(f"Water table midway between drains simulated day by day with {model}, "
+                 f"weather {_esc(w['file'])} ({w['first_day']} to {w['last_day']}, "
+                 f"{w['days']} days; {pet}); season {_esc(sim['season'])}. SEW30 is the sum "
+                 f"of the water-table height above {depth30} depth over the days of a season "
+                 f"({sew_u}; Sieben 1964), shown for the {basis}.", "small"))
+    if "simulation" in figures_png:
+        out.append(_image(figures_png["simulation"], width * 0.95, fit=True))
+    other = "reservoir" if sim.get("other_model") == "reservoir" else "Boussinesq"
+    rows = [["Spacing", "SEW30\nmean", "SEW30\nworst", "Wet\nd/yr", "Drain", "Runoff",
+             "Peak\ndrain", "99 %\ndrain", "Full pipes\nd/yr", f"SEW30\n{other}"]]
+    yrs = w["days"] / 365.25
+    per_year = f.unit("recharge").replace("/d", "/yr")
+
+    def amount(v_mm, nd):
+        return f"{float(f.to(v_mm / 1000 / yrs, 'recharge')):.{nd}f} {per_year}"
+
+    for name, r in sim["key_spacings"].items():
+        rows.append([f"{f.spacing(r['spacing_m'])} ({name})", sew(r["sew30_cm_d"], False),
+                     sew(r["sew30_worst_year_cm_d"], False), f"{r['wet_days_per_year']:.1f}",
+                     amount(r["drain_mm"], 1 if f.us else 0),
+                     amount(r["runoff_mm"], 2 if f.us else 1),
+                     f.rate(r["peak_drain_mm_d"] / 1000), f.rate(r["p99_drain_mm_d"] / 1000),
+                     f"{r.get('pipe_full_days_per_year', float('nan')):.1f}",
+                     sew(r.get("other_model", {}).get("sew30_cm_d"), False)])
+    out.append(_table(rows, font_size=6.8, widths=[w_ * mm for w_ in
+                                                   (28, 13, 13, 12, 22, 19, 18, 18, 16, 15)]))
+    out.append(P(f"SEW30 in {sew_u} per season; wet days: days with the water table within "
+                 f"{depth30} of the surface; drain and runoff per year; full pipes: days a "
+                 "year the drains carry more than the pipe drainage coefficient "
+                 f"({f.rate(sim['drainage_coefficient_m_per_d'])}).", "small"))
+    a = sim["agreement"]
+    out.append(P("Method agreement", "h2"))
+    arows = [["Analytic spacing (before rounding)", f.spacing(a["analytic_spacing_m"])],
+             ["Design spacing", f.spacing(a["design_spacing_m"])],
+             [f"SEW30 at the design spacing ({basis})", sew(a["design_sew30_cm_d"])]]
+    t = sim.get("target")
+    if t is not None:
+        arows.append([f"SEW30 target ({basis})", sew(t["target_cm_d"])])
+        arows.append(["Widest spacing within the target",
+                      f.spacing(t["spacing_m"]) if t.get("spacing_m") else "none simulated"])
+    out.append(_table(arows, widths=[75 * mm, 45 * mm], header=False))
+    if a.get("reason"):
+        out.append(P(f"Simulated {f.spacing(a['simulated_spacing_m'])} against analytic "
+                     f"{f.spacing(a['analytic_spacing_m'])} ({a['ratio']:.2f}×): "
+                     + note(a["reason"])))
+    elif t is None:
+        out.append(P(f"At the design spacing the simulated SEW30 is "
+                     f"{sew(a['design_sew30_cm_d'])} in the {basis}; no SEW30 target was "
+                     "given, so no simulated spacing is derived."))
+    else:
+        out.append(P(f"At the design spacing the simulated SEW30 is "
+                     f"{sew(a['design_sew30_cm_d'])} in the {basis}; " + note(t["note"]) + "."))
+    out.append(P("Assumptions of the simulation", "h2"))
+    for text in sim["assumptions"]:
+        out.append(P("• " + note(text), "small"))
+    return out
 
 
 #: Metric quantities inside notes written by lower layers, and their display roles with

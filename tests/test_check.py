@@ -16,7 +16,8 @@ X0, Y0 = 500000.0, 4700000.0          # UTM 15N, an invented place
 CRS = "EPSG:32615"
 
 
-def _project(tmp_path, *, falling=False, coefficient="12.7 mm/d", outlet=False, well=None):
+def _project(tmp_path, *, falling=False, coefficient="12.7 mm/d", outlet=False, well=None,
+             ground=None):
     field = shapely.box(X0, Y0, X0 + 300, Y0 + 200)
     gpd.GeoDataFrame({"field_id": ["T1"]}, geometry=[field], crs=CRS).to_file(
         tmp_path / "fields.gpkg", driver="GPKG")
@@ -24,6 +25,10 @@ def _project(tmp_path, *, falling=False, coefficient="12.7 mm/d", outlet=False, 
         gpd.GeoDataFrame({"kind": ["well"], "setback_m": [30.0]},
                          geometry=[shapely.Point(X0 + well[0], Y0 + well[1])], crs=CRS).to_file(
             tmp_path / "exclusions.gpkg", driver="GPKG")
+    if ground is not None:           # a flat surveyed ground at elevation `ground`
+        gx, gy = np.meshgrid(np.linspace(X0 - 20, X0 + 320, 8), np.linspace(Y0 - 20, Y0 + 220, 6))
+        rows = ["x,y,z"] + [f"{a},{b},{ground}" for a, b in zip(gx.ravel(), gy.ravel())]
+        (tmp_path / "survey.csv").write_text("\n".join(rows) + "\n")
     text = f"""
 [site]
 name = "Invented test field"
@@ -58,6 +63,8 @@ direction = 0
 coefficient = "{coefficient}"
 material = "corrugated"
 series = "inch"
+{'survey = "survey.csv"' if ground is not None else ''}
+{'survey_crs = "EPSG:32615"' if ground is not None else ''}
 """
     (tmp_path / "project.toml").write_text(text)
     return tmp_path / "project.toml"
@@ -406,3 +413,51 @@ def test_perforated_lateral_in_a_well_setback_fails(run, tmp_path):
                if "clear of exclusion setbacks" in x["fails"]}
     assert failing == {round(x) for x in inside}
     assert out["verdict"] == "fails"
+
+
+def test_depth_from_surveyed_ground_and_inverts(run, tmp_path):
+    """Z values under a surveyed ground give each lateral's depth as installed; the
+    spacing criterion is then taken at that depth."""
+    from drainplan.spacing import drain_spacing, effective_radius
+
+    proj = _project(tmp_path, ground=101.3)
+    geoms = [shapely.LineString([(X0 + x, Y0 + 195, 100.2), (X0 + x, Y0 + 3, 100.0)])
+             for x in np.arange(10.0, 300.0, 20.0)]
+    gpd.GeoDataFrame({"kind": ["lateral"] * len(geoms)}, geometry=geoms, crs=CRS).to_file(
+        tmp_path / "z.gpkg", driver="GPKG")
+    out = json.loads(run("check", proj, "--proposal", tmp_path / "z.gpkg", "--json").stdout)
+    assert all(x["depth_m"] == pytest.approx(1.2, abs=1e-3) for x in out["laterals"])
+    expect = float(drain_spacing(method="hooghoudt", drain_depth=1.2, barrier_depth=3.0,
+                                 drain_radius=effective_radius("sock-4in"), k=0.6,
+                                 recharge=0.007, water_table_depth=0.5).spacing)
+    steady = next(c for c in out["criteria"] if c["name"] == "steady")
+    assert steady["required"] == pytest.approx(expect, rel=1e-3)
+    # inverts above the ground are refused in one line
+    bad = [shapely.LineString([(X0 + 10, Y0 + 195, 102.0), (X0 + 10, Y0 + 3, 101.9)])]
+    gpd.GeoDataFrame({"kind": ["lateral"]}, geometry=bad, crs=CRS).to_file(
+        tmp_path / "zb.gpkg", driver="GPKG")
+    r = run("check", proj, "--proposal", tmp_path / "zb.gpkg")
+    assert r.exit_code == 2 and "above the surveyed ground" in r.stderr
+
+
+def test_design_numbers_meet_every_criterion(tmp_path):
+    """The numbers of drainplan's own design (spacing, depth, largest lateral and main
+    sizes, the radius used) make a proposal that meets every criterion."""
+    from drainplan.check import check_proposal, read_proposal
+    from drainplan.design import design
+    from drainplan.project import load_project
+
+    proj = load_project(_project(tmp_path, falling=True, outlet=True))
+    res = design(proj)
+    d = res.summary["design"]
+    reaches = res.pipes_plan.design.reaches
+    lat = max((r for r in reaches if r["kind"] == "lateral"), key=lambda r: r["flow_l_s"])
+    main = max((r for r in reaches if r["kind"] == "main"), key=lambda r: r["flow_l_s"])
+    (tmp_path / "n.toml").write_text(
+        f'[proposal]\nlateral_spacing = "{d["spacing_m"]} m"\ndepth = "{d["drain_depth_m"]} m"\n'
+        f'lateral_size = "{lat["size"]}"\nmain_size = "{main["size"]}"\n'
+        f'envelope = "sock-4in"\n')
+    out = check_proposal(proj, read_proposal(tmp_path / "n.toml")).summary
+    assert out["verdict"] == "meets", [c["text"] for c in out["criteria"] if not c["meets"]]
+    assert {"steady", "falling", "lateral capacity", "main capacity"} <= {
+        c["name"] for c in out["criteria"]}

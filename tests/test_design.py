@@ -130,7 +130,8 @@ def test_refuses_non_empty_output(run, tmp_path):
 ])
 def test_bad_project_through_cli(run, tmp_path, edit, text):
     src = (DEMO / "project.toml").read_text().replace(*edit)
-    for name in ("fields.geojson", "exclusions.geojson", "outlet.geojson", "survey.csv"):
+    for name in ("fields.geojson", "exclusions.geojson", "outlet.geojson", "survey.csv",
+                 "weather.csv"):
         (tmp_path / name).symlink_to(DEMO / name)
     (tmp_path / "project.toml").write_text(src)
     out = tmp_path / "out"
@@ -156,7 +157,8 @@ def test_us_letter_with_logo(run, tmp_path):
     plt.close(fig)
     text = (DEMO / "project.toml").read_text().replace('units = "metric"', 'units = "us"')
     text = text.replace('paper = "A4"', 'paper = "Letter"\nlogo = "logo.png"')
-    for name in ("fields.geojson", "exclusions.geojson", "outlet.geojson", "survey.csv"):
+    for name in ("fields.geojson", "exclusions.geojson", "outlet.geojson", "survey.csv",
+                 "weather.csv"):
         (tmp_path / name).symlink_to(DEMO / name)
     (tmp_path / "project.toml").write_text(text)
     r = run("design", tmp_path / "project.toml", "-o", tmp_path / "out")
@@ -167,3 +169,25 @@ def test_us_letter_with_logo(run, tmp_path):
     assert (round(w), round(h)) == (612, 792)                 # US Letter, points
     text0 = reader.pages[0].extract_text()
     assert "ft" in text0 and "acre" in text0
+    sim = next(p.extract_text() for p in reader.pages
+               if "Season simulation over the weather record" in p.extract_text())
+    assert " ft " in sim and "in/d" in sim
+
+
+def test_simulation_page(demo_design):
+    """The demo project has a [simulation] section: the sheet gets the season-simulation
+    page (figure, key spacings, method agreement with its sentence, assumptions) and
+    summary.json the numbers behind it."""
+    out, _ = demo_design
+    s = json.loads((out / "summary.json").read_text())
+    sim = s["simulation"]
+    keys = sim["key_spacings"]
+    assert keys["design"]["spacing_m"] == pytest.approx(s["design"]["spacing_m"], abs=0.01)
+    a = sim["agreement"]
+    assert a["analytic_spacing_m"] == pytest.approx(s["design"]["spacing_before_rounding_m"])
+    pages = [p.extract_text() for p in pypdf.PdfReader(out / "design_sheet.pdf").pages]
+    page = next(p for p in pages if "Season simulation over the weather record" in p)
+    assert "Method agreement" in page and "SEW30" in page
+    assert f"{keys['design']['sew30_cm_d']:.0f}" in page
+    assert any("Assumptions of the simulation" in p for p in pages)
+    assert any("Sieben" in p for p in pages)                     # reference listed

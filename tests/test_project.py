@@ -31,7 +31,8 @@ def _variant(tmp_path, old, new):
     assert text != DEMO.read_text() or old == new
     path = tmp_path / "project.toml"
     path.write_text(text)
-    for name in ("fields.geojson", "exclusions.geojson", "outlet.geojson", "survey.csv"):
+    for name in ("fields.geojson", "exclusions.geojson", "outlet.geojson", "survey.csv",
+                 "weather.csv"):
         (tmp_path / name).symlink_to(DEMO.parent / name)
     return path
 

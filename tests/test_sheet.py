@@ -26,7 +26,8 @@ def _project_copy(tmp_path, edits=(), append=""):
     for old, new in edits:
         assert old in text
         text = text.replace(old, new)
-    for name in ("fields.geojson", "exclusions.geojson", "outlet.geojson", "survey.csv"):
+    for name in ("fields.geojson", "exclusions.geojson", "outlet.geojson", "survey.csv",
+                 "weather.csv"):
         (tmp_path / name).symlink_to(DEMO / name)
     (tmp_path / "project.toml").write_text(text + append)
     return tmp_path / "project.toml"

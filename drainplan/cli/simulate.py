@@ -72,7 +72,8 @@ def _parse_spacings(text):
               default="boussinesq", show_default=True,
               help="Model (the other one is reported beside).")
 @click.option("--target-sew30", type=float,
-              help="SEW30 limit per season (cm·d): report the widest spacing within it.")
+              help="SEW30 limit per season in cm·d (its unit, also with --units us): "
+                   "report the widest spacing within it.")
 @click.option("--target-basis", type=click.Choice(["mean", "worst-year"]), default="mean",
               show_default=True, help="Read the target against the mean season or the "
                                       "worst one.")
@@ -169,37 +170,30 @@ def _write_plot(path, run, target, units, overwrite):
     import matplotlib.pyplot as plt
 
     from ..gisio import write_atomic
-    from ..plots import (drain_exceedance, save_figure, sew30_against_spacing,
-                         simulated_water_table)
+    from ..plots import save_figure, season_simulation_panels
     from ..simulation_plan import wettest_season
 
     r = run.result
     year, mask = wettest_season(run.weather, run.season)
     idx = sorted({0, r.spacing.size // 2, r.spacing.size - 1})
-    fig = plt.figure(figsize=(8, 6.4))
-    gs = fig.add_gridspec(2, 2, height_ratios=[1.0, 1.0])
-    ax1 = fig.add_subplot(gs[0, :])
-    simulated_water_table(run.weather.dates[mask],
-                          {float(r.spacing[i]): r.water_table_depth[i, mask] for i in idx},
-                          ax=ax1, units=units, drain_depth=run.site.drain_depth,
-                          title=f"Wettest season ({year}), midway water table")
-    ax2 = fig.add_subplot(gs[1, 0])
+    basis = target["basis"] if target else "mean"
+    key = "sew30_cm_d" if basis == "mean" else "sew30_worst_year_cm_d"
     other = None
     if run.other is not None:
         other = ("de Zeeuw-Hellinga" if run.other.model == "reservoir" else "Boussinesq",
-                 [row["other_model"]["sew30_cm_d"] for row in run.rows])
-    sew30_against_spacing(r.spacing, [row["sew30_cm_d"] for row in run.rows], ax=ax2,
-                          units=units, target=target["target_cm_d"] if target else None,
-                          other=other,
-                          marks={"widest within target": target["spacing_m"]}
-                          if target and target.get("spacing_m") else None,
-                          title="SEW30, mean season")
-    ax3 = fig.add_subplot(gs[1, 1])
-    su = display_unit("spacing", units)
-    drain_exceedance({f"L = {to_display(r.spacing[i], 'spacing', units):.0f} {su}":
-                      r.drain[i] / r.time_step for i in idx}, ax=ax3, units=units,
-                     coefficient=run.coefficient, title="Daily drain discharge")
-    fig.tight_layout()
+                 [row["other_model"][key] for row in run.rows])
+    data = {"dates": run.weather.dates[mask], "year": year,
+            "depths": {float(r.spacing[i]): r.water_table_depth[i, mask] for i in idx},
+            "spacings": r.spacing, "sew30": [row[key] for row in run.rows],
+            "other": other, "target": target["target_cm_d"] if target else None,
+            "basis": basis,
+            "label": "Boussinesq" if run.model == "boussinesq" else "de Zeeuw-Hellinga",
+            "marks": {"widest within target": target["spacing_m"]}
+            if target and target.get("spacing_m") else None,
+            "discharges": {float(r.spacing[i]): r.drain[i] / r.time_step for i in idx},
+            "coefficient": run.coefficient, "drain_depth": run.site.drain_depth}
+    fig = plt.figure(figsize=(8, 6.4))
+    season_simulation_panels(data, fig=fig, units=units)
     write_atomic(path, lambda tmp: save_figure(fig, tmp), overwrite=overwrite)
     plt.close(fig)
 
@@ -245,12 +239,17 @@ def _as_text(run, target, season, units):
     def rate(v_mm_d):
         return f"{float(to_display(v_mm_d / 1000.0, 'recharge', units)):.{2 if units == 'us' else 1}f}"
 
+    k_sew, sew_u = (1 / 2.54, "in·d") if units == "us" else (1.0, "cm·d")
+
+    def sew(v):
+        return f"{v * k_sew:.0f}"
+
     model = {"boussinesq": "Boussinesq (non-linear, equivalent depth)",
              "reservoir": "de Zeeuw-Hellinga linear reservoir"}
     lines = [f"Season simulation: {model[run.model]}",
              f"  weather {w.name}: {w.dates[0]} to {w.dates[-1]} ({w.dates.size} days, "
              f"PET from {w.pet_source})",
-             f"  season: {season}; SEW30 in cm·d per season (mean and worst season); amounts "
+             f"  season: {season}; SEW30 in {sew_u} per season (mean and worst season); amounts "
              f"per year"]
     head = (f"  {'spacing':>8} {'SEW30':>7} {'worst':>7} {'wet d/yr':>8} {'drain':>7} "
             f"{'runoff':>7} {'ET':>7} {'peak':>6} {'p99':>6}")
@@ -258,19 +257,19 @@ def _as_text(run, target, season, units):
         head += f" {'full d/yr':>9}"
     if run.other is not None:
         head += f" {'SEW30 ' + ('res.' if run.other.model == 'reservoir' else 'Bq.'):>10}"
-    lines += ["", f"  {'(' + su + ')':>8} {'cm·d':>7} {'cm·d':>7} {'':>8} {'(' + au + ')':>7} "
+    lines += ["", f"  {'(' + su + ')':>8} {sew_u:>7} {sew_u:>7} {'':>8} {'(' + au + ')':>7} "
               f"{'':>7} {'':>7} {'(' + qu + ')':>6} {'':>6}", head]
     lines[-2], lines[-1] = lines[-1], lines[-2]
     for row in run.rows:
         line = (f"  {float(to_display(row['spacing_m'], 'spacing', units)):8.1f} "
-                f"{row['sew30_cm_d']:7.0f} {row['sew30_worst_year_cm_d']:7.0f} "
+                f"{sew(row['sew30_cm_d']):>7} {sew(row['sew30_worst_year_cm_d']):>7} "
                 f"{row['wet_days_per_year']:8.1f} {amount(row['drain_mm']):>7} "
                 f"{amount(row['runoff_mm']):>7} {amount(row['et_mm']):>7} "
                 f"{rate(row['peak_drain_mm_d']):>6} {rate(row['p99_drain_mm_d']):>6}")
         if run.coefficient is not None:
             line += f" {row['pipe_full_days_per_year']:9.1f}"
         if run.other is not None:
-            line += f" {row['other_model']['sew30_cm_d']:10.0f}"
+            line += f" {sew(row['other_model']['sew30_cm_d']):>10}"
         lines.append(line)
     lines.append(f"  rain {amount(run.rows[0]['rain_mm'])} {au}; largest water-balance error "
                  f"{max(abs(r['balance_error_mm']) for r in run.rows):.1e} mm")
@@ -280,12 +279,12 @@ def _as_text(run, target, season, units):
     if target is not None:
         basis = "mean season" if target["basis"] == "mean" else "worst season"
         if target["spacing_m"] is None:
-            lines.append(f"Target SEW30 <= {target['target_cm_d']:g} cm·d ({basis}): "
+            lines.append(f"Target SEW30 <= {sew(target['target_cm_d'])} {sew_u} ({basis}): "
                          f"{target['note']}")
         else:
-            lines.append(f"Target SEW30 <= {target['target_cm_d']:g} cm·d ({basis}): widest "
-                         f"spacing {show(target['spacing_m'], 'spacing', units, 1)} "
-                         f"(SEW30 {target['sew30_cm_d']:.0f} cm·d)"
+            lines.append(f"Target SEW30 <= {sew(target['target_cm_d'])} {sew_u} ({basis}): "
+                         f"widest spacing {show(target['spacing_m'], 'spacing', units, 1)} "
+                         f"(SEW30 {sew(target['sew30_cm_d'])} {sew_u})"
                          + (f"; {target['note']}" if target.get("note") else ""))
     lines.append("Assumptions")
     lines += [f"  - {a}" for a in _assumptions()]
