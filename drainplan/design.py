@@ -261,7 +261,7 @@ def design(project, *, progress=None):
         exclude_setback=fl.get("exclusion_setback", 15.0), outlet=fl.get("outlet"),
         repair=lo.get("repair", False), survey_path=p.pipes.get("survey"),
         survey_crs=p.pipes.get("survey_crs"),
-        survey_z_unit=p.pipes.get("survey_z_unit", "m")))
+        survey_z_unit=p.pipes.get("survey_z_unit", "m"), dem_path=p.pipes.get("dem")))
 
     # pipes
     say("pipes")
