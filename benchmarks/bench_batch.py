@@ -187,9 +187,6 @@ def main():
     args = ap.parse_args()
     sizes = [int(s) for s in args.sizes.split(",")]
     engines = args.engines.split(",")
-    names = {"one": "1 core (`--workers 1`)",
-             "all": f"all {os.cpu_count()} cores (`--workers {os.cpu_count()}`)",
-             "dask": f"local Dask cluster ({os.cpu_count()} worker processes)"}
     rows = []
     load_before = os.getloadavg()
     with tempfile.TemporaryDirectory() as tmp:

@@ -789,7 +789,7 @@ def partition_order(geoms, size):
     n = geoms.size
     if n == 0:
         return []
-    pts = shapely.centroid(np.where(pd_notna(geoms), geoms, shapely.Point()))
+    pts = shapely.centroid(np.where(_present(geoms), geoms, shapely.Point()))
     xy = shapely.get_coordinates(pts, include_z=False)
     empty = shapely.is_empty(pts)
     s = gpd.GeoSeries(np.where(empty, shapely.Point(0, 0), pts))
@@ -807,7 +807,7 @@ def partition_order(geoms, size):
     return [np.sort(order[i:i + size]) for i in range(0, n, size)]
 
 
-def pd_notna(geoms):
+def _present(geoms):
     return np.array([g is not None for g in geoms], dtype=bool)
 
 
@@ -996,7 +996,7 @@ def run_batch(inp: BatchInputs, *, progress=None):
         if soil["kind"] == "map":
             if soil_tree is not None:
                 g = geoms[rows]
-                g = g[pd_notna(g)]
+                g = g[_present(g)]
                 si = np.unique(soil_tree.query(g)[1]) if g.size else np.empty(0, int)
             else:
                 si = np.empty(0, int)

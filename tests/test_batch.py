@@ -10,7 +10,6 @@ depth, each weighted by the area of the field inside each soil polygon.
 
 import json
 import math
-import os
 import signal
 import subprocess
 import sys

@@ -105,3 +105,25 @@ def test_conversions():
         parse_soil_units("k:in/h")
     assert parse_soil_units("porosity=%, barrier=cm") == {"drainable_porosity": "%",
                                                           "barrier_depth": "cm"}
+
+
+from hypothesis import given, settings  # noqa: E402
+from hypothesis import strategies as st  # noqa: E402
+
+
+@settings(max_examples=40, deadline=None)
+@given(st.lists(st.tuples(st.floats(0, 250), st.floats(0, 150), st.floats(5, 120),
+                          st.floats(5, 80)), min_size=1, max_size=6))
+def test_properties_of_the_weighting(boxes):
+    """Cover lies in [0, 1]; an areal mean lies between the smallest and largest value
+    of the polygons the field overlaps (common practice: a mean of the parts)."""
+    fields = [shapely.box(x, y, x + w, y + h) for x, y, w, h in boxes]
+    r = area_weighted_soil(fields, SOIL, {"k": K, "barrier_depth": ZB})
+    assert np.all((r["soil_cover"] >= 0) & (r["soil_cover"] <= 1 + 1e-12))
+    for i, f in enumerate(fields):
+        hit = [j for j, s in enumerate(SOIL) if shapely.intersection(f, s).area > 0]
+        if not hit:
+            assert np.isnan(r["k"][i])
+            continue
+        assert K[hit].min() * (1 - 1e-9) <= r["k"][i] <= K[hit].max() * (1 + 1e-9)
+        assert ZB[hit].min() - 1e-9 <= r["barrier_depth"][i] <= ZB[hit].max() + 1e-9
