@@ -590,6 +590,8 @@ def build_sheet(summary, figures_png, path, *, units="metric", paper="A4", logo=
     for ref in s["references"]:
         story.append(P(_esc(ref), "small"))
 
+    story += _uncertainty_section(s, figures_png, P, units, width)
+
     # ---- fields, pipes
     story.append(CondPageBreak(45 * mm))
     story.append(P("Fields", "hl"))
@@ -840,6 +842,73 @@ def _show_density(v, units):
 def _esc_keep(text):
     """Escape a title that may carry <sub>/<super> markup of our own."""
     return text
+
+
+def _uncertainty_section(s, figures_png, P, units, width):
+    """Field tests (each test's K, design K and spread) and the spacing under uncertainty
+    (probability curve, inputs varied, spacing at the chosen confidence)."""
+    from reportlab.lib.units import mm
+    from reportlab.platypus import CondPageBreak
+
+    from .units import show
+
+    ft, u = s.get("field_tests"), s.get("uncertainty")
+    if ft is None and u is None:
+        return []
+
+    def cond(v):
+        return show(v, "conductivity", units, 3)
+
+    def sp(v):
+        return show(v, "spacing", units, 1)
+
+    out = [CondPageBreak(70 * mm), P("Field tests and how sure the spacing is", "h")]
+    if ft is not None:
+        rows = [["Place", "Test", "K", "Readings used"]]
+        for t in ft["tests"]:
+            rows.append([P(_esc(t["place"]), "cell"), t["kind"], cond(t["k"]), t["readings"]])
+        out.append(_table(rows, widths=[70 * mm, 35 * mm, 30 * mm, 30 * mm]))
+        how = ("the geometric mean" if ft["percentile"] is None
+               else f"the {ft['percentile']:g} % point of the fitted lognormal; geometric "
+                    f"mean {cond(ft['geometric_mean_m_per_d'])}")
+        out.append(P(f"Design K from {ft['n']} test(s): <b>{cond(ft['design_k_m_per_d'])}</b> "
+                     f"({how}). Spread: "
+                     f"{cond(ft['min_m_per_d'])} to {cond(ft['max_m_per_d'])} "
+                     f"(factor {ft['spread_factor']:.1f}), standard deviation of ln K "
+                     f"{ft['log_sd']:.2f} (cv {ft['cv']:.2f}). Used for "
+                     f"{_esc(ft['used_for'])}. Auger-hole tests reduced by Ernst's formula, "
+                     "readings used while the rise stayed under a quarter of the first "
+                     "drawdown; inverse auger-hole tests by Porchet's formula.", "small"))
+        for t in ft["tests"]:
+            if t.get("note"):
+                out.append(P(f"• {_esc(t['place'])}: {_esc(t['note'])}", "small"))
+    if u is not None:
+        if "probability" in figures_png:
+            out.append(_image(figures_png["probability"], width))
+        c = u["confidence"]
+        pc = f"{c * 100:.0f} %"
+        rows = [(f"Inputs varied ({u['n_samples']:,} samples, seed {u['seed']})",
+                 "; ".join(f"{v['input']}: {v['distribution']}" for v in u["varied"])),
+                (f"Spacing met with {pc} probability", sp(u["spacing_at_confidence_m"])
+                 + (f" (from the K percentile: {sp(u['exact_spacing_at_confidence_m'])})"
+                    if u.get("exact_spacing_at_confidence_m") is not None else "")),
+                ("Spacing met with 50 % probability", sp(u["median_spacing_m"])),
+                ("Probability that the design spacing meets the criteria",
+                 f"{u['probability_design_spacing_meets'] * 100:.0f} %"),
+                ("Design spacing", f"the spacing met with {pc} probability"
+                 if u["design_spacing_at_confidence"] else
+                 "from the central values (criteria.confidence would design for a chosen "
+                 "probability)")]
+        rows = [[P(_esc(a), "cell"), P(_esc(b), "cell")] for a, b in rows]
+        out.append(_table(rows, widths=[70 * mm, width - 70 * mm], header=False))
+        out.append(P("K is taken as lognormal about the K in use (its median). With K alone "
+                     "varying, the spacing met with a given probability is the spacing at "
+                     "the matching K percentile; when several inputs vary together no single "
+                     "percentile gives it, so the joint samples are counted. Samples without "
+                     "a workable spacing count as failing.", "small"))
+        for n in u.get("notes", []):
+            out.append(P("• " + _esc(n), "small"))
+    return out
 
 
 def _esc(text):
