@@ -18,7 +18,7 @@ from .project import Project
 from .spacing import (METHODS, drain_spacing, glover_dumm_head, glover_dumm_profile,
                       hooghoudt_water_table)
 
-__all__ = ["DesignResult", "design", "REFERENCES"]
+__all__ = ["DesignResult", "design", "REFERENCES", "check_sheet_text"]
 
 #: Full citations printed on the design sheet, by method.
 REFERENCES = {
@@ -183,7 +183,7 @@ def design(project, *, progress=None):
     """
     say = progress or (lambda text: None)
     p = project
-    text_warnings = _check_sheet_text(p)
+    text_warnings = check_sheet_text(p)
     c, d = p.criteria, p.drains
     steady_method = c.get("method", "hooghoudt")
     if steady_method == "glover-dumm":
@@ -286,7 +286,7 @@ def design(project, *, progress=None):
         exclude_setback=fl.get("exclusion_setback", 15.0), outlet=fl.get("outlet"),
         repair=lo.get("repair", False), survey_path=p.pipes.get("survey"),
         survey_crs=p.pipes.get("survey_crs"),
-        survey_z_unit=p.pipes.get("survey_z_unit", "m")))
+        survey_z_unit=p.pipes.get("survey_z_unit", "m"), dem_path=p.pipes.get("dem")))
 
     # pipes
     say("pipes")
@@ -400,7 +400,7 @@ def _season_simulation(p, depth, spacing, raw_spacing, coef, lp):
 US_SPACING_INCREMENT = 5 * 0.3048
 
 
-def _check_sheet_text(p):
+def check_sheet_text(p):
     """Project text that goes on the sheet: control characters stripped (warned), and
     right-to-left text or characters the sheet font lacks refused before any work."""
     from ._text import check_text

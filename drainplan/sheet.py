@@ -24,7 +24,7 @@ CRITERION_NAMES = {"steady": "steady state (design recharge)",
                    "falling": "falling water table (drawdown in the time allowed)"}
 #: Rows of the pipe schedule printed on the sheet; a longer schedule prints the mains
 #: and refers to pipe_schedule.csv for the laterals (the CSV always has every reach).
-MAX_SCHEDULE_ROWS = 250
+MAX_SCHEDULE_ROWS = 400
 #: Rows per reportlab table: page-sized tables keep long schedules fast to lay out.
 TABLE_CHUNK = 45
 
@@ -71,6 +71,10 @@ def _styles():
                                 spaceAfter=6),
         "h": ParagraphStyle("h", parent=base, fontName=_BOLD, fontSize=11.5, leading=15,
                             spaceBefore=8, spaceAfter=4, keepWithNext=1),
+        # a heading followed by a long, splitting table: a CondPageBreak before it keeps it
+        # off the foot of a page instead of pushing the whole table to the next page
+        "hl": ParagraphStyle("hl", parent=base, fontName=_BOLD, fontSize=11.5, leading=15,
+                             spaceBefore=8, spaceAfter=4),
         "h2": ParagraphStyle("h2", parent=base, fontName=_BOLD, keepWithNext=1,
                              spaceBefore=4),
         "warn": ParagraphStyle("warn", parent=base, fontSize=8.5, leading=11,
@@ -445,9 +449,14 @@ def build_sheet(summary, figures_png, path, *, units="metric", paper="A4", logo=
                      f"{f.rate(fl['mean_m_per_d'])} on average over the time allowed"])
     story.append(_table([[a, P(b, "cell")] for a, b in rows], widths=[62 * mm, width - 62 * mm],
                         header=False))
-    if d.get("warnings"):
+    # names read from the GIS files that the sheet font cannot show: said up front
+    name_warnings = []
+    for fr in s["fields"]:
+        sheet_text(fr["field_id"], "field id", name_warnings)
+    warnings = list(d.get("warnings") or []) + list(dict.fromkeys(name_warnings))
+    if warnings:
         story.append(P("Warnings", "h"))
-        for w in d["warnings"]:
+        for w in warnings:
             story.append(P("⚠ " + _esc(w), "warn"))
     story.append(P("Key quantities", "h"))
     # pipe quantities straight from the take-off, so page 1 and the take-off agree
@@ -584,8 +593,8 @@ def build_sheet(summary, figures_png, path, *, units="metric", paper="A4", logo=
     story += _uncertainty_section(s, figures_png, P, units, width)
 
     # ---- fields, pipes
-    story.append(CondPageBreak(90 * mm))
-    story.append(P("Fields", "h"))
+    story.append(CondPageBreak(45 * mm))
+    story.append(P("Fields", "hl"))
     frows = [["Field", "Area", "Spacing", "Laterals", "Lateral length", "Main length",
               "Drained area", "Outlet flow"]]
     for fr in s["fields"]:
@@ -595,13 +604,14 @@ def build_sheet(summary, figures_png, path, *, units="metric", paper="A4", logo=
                       f.length(fr.get("main_length_m"), 0), f.area(fr.get("drained_area_ha")),
                       f.flow(fr.get("outlet_flow_l_s"))])
     story.extend(_long_tables(frows, font_size=7.5))
-    story.append(P("Quantity take-off", "h"))
+    story.append(CondPageBreak(45 * mm))
+    story.append(P("Quantity take-off", "hl"))
     trows = [["Item", "Material", "Size", "Quantity"]]
     for t in s["takeoff"]:
         qty = f.length(t["length_m"], 1) if t["length_m"] else f"{t['count']} pcs"
         kind = t["kind"] + (" (perforated)" if t.get("perforated") else "")
         trows.append([kind, t["material"] or "–", t["size"], qty])
-    story.append(_table(trows))
+    story.extend(_long_tables(trows, chunk=25))
     story.append(P("Whole job; per-field quantities are in summary.json. Perforated pipe is "
                    "the laterals only; connectors, sub-mains, mains, trunk and the outlet "
                    "pipe are solid.", "small"))
@@ -637,7 +647,7 @@ def build_sheet(summary, figures_png, path, *, units="metric", paper="A4", logo=
 
     # ---- appendix: pipe schedule
     story.append(PageBreak())
-    story.append(P("Appendix — Pipe schedule", "h"))
+    story.append(P("Appendix — Pipe schedule", "hl"))
     qu, vu = f.unit("flow"), f.unit("velocity")
     reaches = s["reaches"]
     if len(reaches) > MAX_SCHEDULE_ROWS:
@@ -902,4 +912,9 @@ def _uncertainty_section(s, figures_png, P, units, width):
 
 
 def _esc(text):
-    return (str(text).replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;"))
+    """Text for a reportlab paragraph: markup characters escaped, and characters the sheet
+    font cannot show replaced by '?' (never an empty box; see drainplan._text)."""
+    from ._text import sheet_text
+
+    text = sheet_text(text, "text", [])
+    return text.replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;")
