@@ -417,6 +417,11 @@ def boussinesq_simulation(*, spacing, rain, pet, k_below, depth_to_barrier, drai
                                 "max_active_set_iterations": sim.max_iter})
 
 
+#: Heights this far below drain level [m] are rounding, not a water table below the
+#: drains (the fast path keeps them; the water balance stays exact).
+_FLOOR_TOLERANCE = 1e-12
+
+
 class _Boussinesq:
     """Implicit finite-volume stepper for all cases at once (private)."""
 
@@ -508,8 +513,7 @@ class _Boussinesq:
                     ctl = a0 + a1 * (h + hb[:, :-1])
                     cl[:, :M] = ctl
                     ctr = cl[:, 1:]
-                    off = ctr.ravel()[:-1]
-                    np.negative(off, out=off)
+                    off = -ctr.ravel()[:-1]          # a new array (ravel may be a view)
                     diag_t = ctl + ctr + wmu
                     rhs_t = wmu * h + dtw_r
                     new_band = h < hr
@@ -524,8 +528,10 @@ class _Boussinesq:
                         new_band = h_new < hr
                         if (new_band == band).all():
                             break
+                    # bounds: the surface, and drain level (rounding below it, a few
+                    # 1e-18 m where the water table rests on the drains, is let stand)
                     if (h_new.max() <= hs_min or (h_new - hs).max() <= 0.0) \
-                            and h_new.min() >= 0.0:
+                            and h_new.min() >= -_FLOOR_TOLERANCE:
                         flux[:, t] += ctl[:, 0] * h_new[:, 0]
                         et[:, t] += ((p + band * (pin * h_new - p)) * dtw_half).sum(axis=1)
                         hb[:, 1:] = h_new
@@ -592,7 +598,7 @@ class _Boussinesq:
             h_new = self.gtsv(dl, diag.ravel(), du, rhs.ravel())[3].reshape(n, M)
             changed = False
             over = (h_new > hs) & ~pinned
-            under = (h_new < 0.0) & ~pinned
+            under = (h_new < -_FLOOR_TOLERANCE) & ~pinned
             if over.any() or under.any():
                 pinned_hi |= over
                 pinned_lo |= under
