@@ -115,24 +115,23 @@ _MS = dict(unit="m/s")
 #: library, the project-file keys and (with dashes) the CLI options.
 QUANTITIES = {
     # soil
-    "k": Range("hydraulic conductivity", lo=0, lo_open=True, hi=1000, **_MD),
-    "k_above": Range("conductivity above drain level", lo=0, lo_open=True, hi=1000, **_MD),
-    "k_below": Range("conductivity below drain level", lo=0, lo_open=True, hi=1000, **_MD),
-    "k_vertical": Range("vertical conductivity", lo=0, lo_open=True, hi=1000, **_MD),
+    "k": Range("hydraulic conductivity", lo=1e-5, hi=1000, **_MD),
+    "k_above": Range("conductivity above drain level", lo=1e-5, hi=1000, **_MD),
+    "k_below": Range("conductivity below drain level", lo=1e-5, hi=1000, **_MD),
+    "k_vertical": Range("vertical conductivity", lo=1e-5, hi=1000, **_MD),
     "interface_depth": Range("depth of the layer interface", lo=0, hi=100, **_M),
     "barrier_depth": Range("depth to the barrier", lo=0, lo_open=True, hi=1000, **_M),
-    "drainable_porosity": Range("drainable porosity", lo=0, hi=1, lo_open=True,
-                                hi_open=True),
+    "drainable_porosity": Range("drainable porosity", lo=0.001, hi=0.6),
     "layer_thickness": Range("layer thickness", lo=0, lo_open=True, hi=1000, **_M),
     # criteria
-    "recharge": Range("recharge (drainage rate)", lo=0, lo_open=True, hi=1, **_MD),
+    "recharge": Range("recharge (drainage rate)", lo=1e-5, hi=1, **_MD),
     "water_table_depth": Range("water-table depth", lo=0, hi=10, **_M),
     "initial_depth": Range("initial water-table depth", lo=0, hi=10, **_M),
     "final_depth": Range("final water-table depth", lo=0, lo_open=True, hi=10, **_M),
-    "days": Range("drawdown time", unit="d", lo=0, lo_open=True, hi=365),
+    "days": Range("drawdown time", unit="d", lo=0.01, hi=365),
     # drains
     "drain_depth": Range("drain depth", lo=0, lo_open=True, hi=10, **_M),
-    "drain_radius": Range("drain radius", lo=0, lo_open=True, hi=1, **_M),
+    "drain_radius": Range("drain radius", lo=0.001, hi=1, **_M),
     "spacing_increment": Range("spacing increment", lo=0.01, hi=50, **_M),
     # layout
     "spacing": Range("lateral spacing", lo=1, hi=2000, **_M),
@@ -143,16 +142,16 @@ QUANTITIES = {
     "exclusion_setback": Range("exclusion setback", lo=0, hi=1000, **_M),
     "herringbone_angle": Range("herringbone angle", lo=15, hi=75, **_DEG),
     # pipes
-    "coefficient": Range("drainage coefficient", lo=0, lo_open=True, hi=1, **_MD),
-    "capacity_factor": Range("capacity factor", lo=0, lo_open=True, hi=1),
+    "coefficient": Range("drainage coefficient", lo=1e-4, hi=1, **_MD),
+    "capacity_factor": Range("capacity factor", lo=0.1, hi=1),
     "main_depth": Range("main depth", lo=0, lo_open=True, hi=10, **_M),
-    "min_grade": Range("minimum grade", lo=0, lo_open=True, hi=1, hi_open=True, **_PCT),
-    "max_grade": Range("maximum grade", lo=0, lo_open=True, hi=1, **_PCT),
-    "assumed_grade": Range("assumed grade", lo=0, lo_open=True, hi=1, hi_open=True, **_PCT),
+    "min_grade": Range("minimum grade", lo=1e-5, hi=1, hi_open=True, **_PCT),
+    "max_grade": Range("maximum grade", lo=1e-5, hi=1, **_PCT),
+    "assumed_grade": Range("assumed grade", lo=1e-5, hi=1, hi_open=True, **_PCT),
     "min_cover": Range("minimum cover", lo=0, hi=10, **_M),
     "max_depth": Range("maximum trench depth", lo=0, lo_open=True, hi=10, **_M),
-    "min_velocity": Range("minimum velocity", lo=0, lo_open=True, hi=10, **_MS),
-    "max_velocity": Range("maximum velocity", lo=0, lo_open=True, hi=10, **_MS),
+    "min_velocity": Range("minimum velocity", lo=0.01, hi=10, **_MS),
+    "max_velocity": Range("maximum velocity", lo=0.01, hi=10, **_MS),
     "ditch_water_level": Range("ditch water level (elevation)", lo=-1000, hi=9000, **_M),
     "outfall_margin": Range("outfall margin", lo=0, hi=10, **_M),
     # coordinates typed by users (outlet X,Y), in the file's own units
@@ -211,7 +210,7 @@ def check_quantity(key, value, *, name=None):
     >>> check_quantity("drainable_porosity", 1.2, name="soil.drainable_porosity")
     Traceback (most recent call last):
     ...
-    drainplan.errors.InputError: soil.drainable_porosity: drainable porosity must be greater than 0 and less than 1, got 1.2
+    drainplan.errors.InputError: soil.drainable_porosity: drainable porosity must be between 0.001 and 0.6, got 1.2
     """
     r = QUANTITIES[key]
     prefix = f"{name}: " if name else ""

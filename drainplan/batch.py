@@ -129,6 +129,9 @@ def load_batch_settings(path):
         if "drains" not in raw:
             raise InputError(f"{p.name}: section [drains] is required", param="project")
         out["name"] = out.pop("site", {}).get("name", "")
+        soil = out.get("soil", {})
+        if "layers" in soil and "barrier_depth" not in soil:
+            soil["barrier_depth"] = sum(ly["thickness"] for ly in soil["layers"])
         out.pop("fields", None)
         out.pop("report", None)
         out.pop("simulation", None)          # batches do not run the season simulation
@@ -401,47 +404,32 @@ def pipe_columns(settings):
             + [f"main_{_size_label(s)}_m" for s in series.nominal])
 
 
-def _pipe_quantities(lay, spacing, series, settings, select_size):
-    """Lateral and main lengths by size and the outlet flow of each field of a layout.
+def _pipe_flows(lay, spacing, coefficient):
+    """Design flows of the lateral runs and main reaches of a layout.
 
-    Laterals carry q x (perforated length x spacing); a main reach between two
-    junctions carries the laterals upstream of it. Every pipe is sized at the
-    project's minimum grade (a batch has no terrain): the conservative size.
+    A lateral carries q x (perforated length x spacing); a main reach between two
+    junctions carries the laterals upstream of it. Returns ``(run_field, run_flow,
+    run_length)`` and ``(reach_field, reach_flow, reach_length)`` [m3/s, m]; field
+    indices are those of the layout.
     """
     import shapely
 
-    pp = settings.pipes
-    coef = settings.coefficient
-    grade = pp.get("min_grade", 0.001)
-    method = pp.get("capacity_method", "manning")
-    factor = pp.get("capacity_factor", 0.75)
-    nf, ns = lay.bearing.size, len(series.nominal)
-    lat_len = np.zeros((nf, ns))
-    main_len = np.zeros((nf, ns))
-    beyond = np.zeros(nf)
-    flow = np.zeros(nf)
+    empty = (np.empty(0, int), np.empty(0), np.empty(0))
     if lay.lateral_field.size == 0:
-        return lat_len, main_len, beyond, flow
+        return empty, empty
     key = np.stack([lay.lateral_field, lay.lateral_line, lay.lateral_side], axis=1)
     runs, inv = np.unique(key, axis=0, return_inverse=True)
     inv = inv.ravel()
     perf = np.bincount(inv, weights=lay.lateral_length, minlength=len(runs))
-    q_run = coef * perf * spacing / _SECONDS_PER_DAY
-    size, _ = select_size(q_run, np.full(q_run.shape, grade), series, method=method,
-                          uniform_inflow=True, capacity_factor=factor)
-    size = np.atleast_1d(size)
+    q_run = coefficient * perf * spacing / _SECONDS_PER_DAY
     run_len = perf.copy()
-    if lay.connectors.size:
+    if lay.connectors.size:                # solid connectors: same pipe as their run
         ckey = np.stack([lay.connector_field, lay.connector_line, lay.connector_side], axis=1)
         pos = _rows_in(runs, ckey)
         hit = pos >= 0
         np.add.at(run_len, pos[hit], shapely.length(lay.connectors)[hit])
-    rf = runs[:, 0]
-    ok = size >= 0
-    np.add.at(lat_len, (rf[ok], size[ok]), run_len[ok])
-    np.add.at(beyond, rf[~ok], run_len[~ok])
-    flow = np.bincount(rf, weights=q_run, minlength=nf)
-    # mains: reaches between consecutive junctions, flow accumulating downstream
+    laterals = (runs[:, 0], q_run, run_len)
+    mains = empty
     if lay.junctions.size:
         jkey = np.stack([lay.junction_field, lay.junction_line, lay.junction_side], axis=1)
         jrun = _rows_in(runs, jkey)
@@ -456,19 +444,37 @@ def _pipe_quantities(lay, spacing, series, settings, select_size):
             start = np.r_[True, jf[1:] != jf[:-1]]
             csum = np.cumsum(jq)
             base = np.maximum.accumulate(np.where(start, csum - jq, 0.0))
-            q_cum = csum - base
-            seg = np.r_[pos[1:] - pos[:-1], 0.0]
+            q_cum = csum - base                     # flow below each junction
             last = np.r_[jf[1:] != jf[:-1], True]
-            seg = np.where(last, 0.0, seg)
+            seg = np.where(last, 0.0, np.r_[pos[1:] - pos[:-1], 0.0])
             use = seg > 0
-            msize, _ = select_size(q_cum[use], np.full(int(use.sum()), grade), series,
-                                   method=method, capacity_factor=factor)
-            msize = np.atleast_1d(msize)
-            mf, ml = jf[use], seg[use]
-            good = msize >= 0
-            np.add.at(main_len, (mf[good], msize[good]), ml[good])
-            np.add.at(beyond, mf[~good], ml[~good])
-    return lat_len, main_len, beyond, flow
+            mains = (jf[use], q_cum[use], seg[use])
+    return laterals, mains
+
+
+def _size_pipes(laterals, mains, n, series, settings, select_size):
+    """Lengths by size per field (laterals, mains), length beyond the largest size and
+    outlet flow [m3/s]. Every pipe is sized at the project's minimum grade (a batch
+    has no terrain): the conservative size. One size selection for all pipes."""
+    pp = settings.pipes
+    grade = pp.get("min_grade", 0.001)
+    method = pp.get("capacity_method", "manning")
+    factor = pp.get("capacity_factor", 0.75)
+    ns = len(series.nominal)
+    out = []
+    beyond = np.zeros(n)
+    for (f, q, length), uniform in ((laterals, True), (mains, False)):
+        by = np.zeros((n, ns))
+        if f.size:
+            size, _ = select_size(q, np.full(q.shape, grade), series, method=method,
+                                  uniform_inflow=uniform, capacity_factor=factor)
+            size = np.atleast_1d(size)
+            ok = size >= 0
+            np.add.at(by, (f[ok], size[ok]), length[ok])
+            np.add.at(beyond, f[~ok], length[~ok])
+        out.append(by)
+    flow = np.bincount(laterals[0], weights=laterals[1], minlength=n)
+    return out[0], out[1], beyond, flow
 
 
 def _rows_in(table, rows):
@@ -492,14 +498,13 @@ def _layout_quantities(geoms, spacing, settings, with_lines):
     pp, lo = settings.pipes, settings.layout
     series = pipe_series(pp.get("material", "corrugated"), pp.get("series", "metric"),
                          path=pp.get("sizes"))
-    n, ns = geoms.size, len(series.nominal)
+    n = geoms.size
     cols = {k: np.zeros(n) for k in ("lateral_length_m", "connector_length_m",
                                      "main_length_m", "drained_area_ha", "unconnected_length_m",
                                      "outlet_flow_l_s", "pipe_beyond_sizes_m")}
     cols["laterals"] = np.zeros(n, dtype=np.int64)
     cols["bearing_deg"] = np.full(n, np.nan)
-    lat_by = np.zeros((n, ns))
-    main_by = np.zeros((n, ns))
+    pipe_lat, pipe_main = [], []
     notes = np.full(n, "", dtype=object)
     lines = {"laterals": ([], [], []), "mains": ([], [], [])}
     area = np.array([shapely.area(g) if g is not None else 0.0 for g in geoms])
@@ -512,36 +517,48 @@ def _layout_quantities(geoms, spacing, settings, with_lines):
                 herringbone_angle=lo.get("herringbone_angle", 45.0))
     for s in np.unique(spacing[todo]):
         idx = np.flatnonzero(todo & (spacing == s))
-        try:
-            lay = layout_fields(geoms[idx], LayoutOptions(spacing=float(s), **opts))
-        except InputError:
-            notes[idx] = "field narrower than its spacing: no lateral fits"
+        lay = _layout_group(layout_fields, geoms[idx], LayoutOptions(spacing=float(s),
+                                                                          **opts))
+        if lay is None:
             continue
-        per, _ = lay.quantities(area[idx])
+        per, _ = lay.quantities(np.r_[area[idx], np.ones(lay.bearing.size - idx.size)])
+        per = {k: v[:idx.size] for k, v in per.items()}
         cols["laterals"][idx] = per["laterals"]
         for k in ("lateral_length_m", "connector_length_m", "main_length_m",
                   "drained_area_ha", "unconnected_length_m"):
             cols[k][idx] = per[k]
-        cols["bearing_deg"][idx] = lay.bearing
-        la, ma, beyond, flow = _pipe_quantities(lay, float(s), series, settings, select_size)
-        lat_by[idx], main_by[idx] = la, ma
-        cols["pipe_beyond_sizes_m"][idx] = beyond
-        cols["outlet_flow_l_s"][idx] = flow * 1000.0
+        m = idx.size
+        cols["bearing_deg"][idx] = lay.bearing[:m]
+        lt, mn = _pipe_flows(lay, float(s), settings.coefficient)
+        k, j = lt[0] < m, mn[0] < m
+        pipe_lat.append((idx[lt[0][k]], lt[1][k], lt[2][k]))
+        pipe_main.append((idx[mn[0][j]], mn[1][j], mn[2][j]))
         if with_lines:
+            mine = lay.lateral_field < m
             lt = lines["laterals"]
-            lt[0].append(idx[lay.lateral_field])
-            lt[1].append(shapely.to_wkb(lay.laterals) if lay.laterals.size
+            lt[0].append(idx[lay.lateral_field[mine]])
+            lt[1].append(shapely.to_wkb(lay.laterals[mine]) if mine.any()
                          else np.empty(0, object))
-            lt[2].append(lay.lateral_length)
-            has = np.array([m is not None for m in lay.mains], dtype=bool)
+            lt[2].append(lay.lateral_length[mine])
+            has = np.array([x is not None for x in lay.mains[:m]], dtype=bool)
             mn = lines["mains"]
             mn[0].append(idx[has])
-            mn[1].append(shapely.to_wkb(lay.mains[has].astype(object)) if has.any()
+            mn[1].append(shapely.to_wkb(lay.mains[:m][has].astype(object)) if has.any()
                          else np.empty(0, object))
-            mn[2].append(shapely.length(lay.mains[has].astype(object)) if has.any()
+            mn[2].append(shapely.length(lay.mains[:m][has].astype(object)) if has.any()
                          else np.empty(0))
+
+    def cat(parts):
+        return tuple(np.concatenate([p[k] for p in parts]) if parts else
+                     np.empty(0, int if k == 0 else float) for k in range(3))
+
+    lat_by, main_by, beyond, flow = _size_pipes(cat(pipe_lat), cat(pipe_main), n, series,
+                                                settings, select_size)
+    cols["pipe_beyond_sizes_m"] = beyond
+    cols["outlet_flow_l_s"] = flow * 1000.0
+    cols["bearing_deg"][cols["laterals"] == 0] = np.nan     # no lateral, no direction
     for i in np.flatnonzero(todo & (cols["laterals"] == 0) & (notes == "")):
-        notes[i] = "no lateral fits inside the setbacks at this spacing"
+        notes[i] = "no lateral fits in the field at this spacing"
     for i in np.flatnonzero(cols["unconnected_length_m"] > 0):
         notes[i] = _join(notes[i], f"{cols['unconnected_length_m'][i]:.0f} m of lateral "
                                    "cannot reach the main (needs a sub-main)")
@@ -554,6 +571,28 @@ def _layout_quantities(geoms, spacing, settings, with_lines):
                            np.concatenate(g) if g else np.empty(0, object),
                            np.concatenate(length) if length else np.empty(0))
     return cols, lat_by, main_by, series, notes, out_lines
+
+
+def _layout_group(layout_fields, geoms, options):
+    """``layout_fields`` for fields sharing one spacing.
+
+    ``layout_fields`` refuses a call in which the spacing is wider than every
+    field, while a narrow field among wider ones is simply laid out; so that a
+    field's result never depends on its neighbours in the call, a refused call
+    is repeated with one wide square added after the fields (its results are
+    not used: callers keep the first ``len(geoms)`` fields).
+    """
+    import shapely
+
+    try:
+        return layout_fields(geoms, options)
+    except InputError:
+        side = 10.0 * options.spacing + 4.0 * options.setback + 100.0
+        extra = np.r_[geoms, np.array([shapely.box(0.0, 0.0, side, side)], dtype=object)]
+        try:
+            return layout_fields(extra.astype(object), options)
+        except InputError:
+            return None
 
 
 def _join(a, b):
@@ -750,7 +789,7 @@ def partition_order(geoms, size):
     n = geoms.size
     if n == 0:
         return []
-    pts = shapely.centroid(np.where(pd_notna(geoms), geoms, shapely.Point()))
+    pts = shapely.centroid(np.where(_present(geoms), geoms, shapely.Point()))
     xy = shapely.get_coordinates(pts, include_z=False)
     empty = shapely.is_empty(pts)
     s = gpd.GeoSeries(np.where(empty, shapely.Point(0, 0), pts))
@@ -768,14 +807,15 @@ def partition_order(geoms, size):
     return [np.sort(order[i:i + size]) for i in range(0, n, size)]
 
 
-def pd_notna(geoms):
+def _present(geoms):
     return np.array([g is not None for g in geoms], dtype=bool)
 
 
 def default_partition_size(n):
-    """Fields per partition: about 64 partitions, 50-2000 fields each (depends on the
-    number of fields only, so a resumed run cuts the same partitions)."""
-    return int(min(2000, max(50, math.ceil(n / 64))))
+    """Fields per partition: about 32 partitions, 100-2000 fields each (depends on the
+    number of fields only, so a resumed run cuts the same partitions). A layout call
+    per distinct spacing costs a fixed overhead, so partitions are not made smaller."""
+    return int(min(2000, max(100, math.ceil(n / 32))))
 
 
 def _read_inputs(inp):
@@ -902,9 +942,10 @@ def run_batch(inp: BatchInputs, *, progress=None):
     if not out.parent.exists():
         raise InputError(f"folder {out.parent} does not exist", param="output")
     parts_dir = _parts_dir(out)
-    for p in (out, summary_path):
-        if p.exists() and not inp.overwrite:
-            raise InputError(f"{p} exists; use --overwrite to replace it", param="output")
+    from .gisio import check_output_target
+
+    check_output_target(out, overwrite=inp.overwrite, param="output")
+    check_output_target(summary_path, overwrite=inp.overwrite, param="summary")
     if parts_dir.exists() and not inp.resume:
         if not inp.overwrite:
             raise InputError(f"an interrupted run left {parts_dir}; use --resume to continue "
@@ -954,8 +995,8 @@ def run_batch(inp: BatchInputs, *, progress=None):
              "min_soil_cover": inp.min_soil_cover, "repair": inp.repair}
         if soil["kind"] == "map":
             if soil_tree is not None:
-                g = shapely.from_wkb(wkb[rows])
-                g = g[~shapely.is_missing(g)]
+                g = geoms[rows]
+                g = g[_present(g)]
                 si = np.unique(soil_tree.query(g)[1]) if g.size else np.empty(0, int)
             else:
                 si = np.empty(0, int)
@@ -990,13 +1031,13 @@ def run_batch(inp: BatchInputs, *, progress=None):
     results = [read_batch_part(done[k]) for k in range(len(parts))]
     gdf, line_layers = _assemble(results, src, file_crs, work_crs, n, inp)
     summary = _summary_rows(gdf, inp, n)
-    from .gisio import write_layers
+    from .gisio import layers_writer, write_outputs
 
     layers = {"fields": gdf, **line_layers}
-    write_layers(out, layers, overwrite=inp.overwrite)
-    write_atomic(summary_path, lambda tmp: Path(tmp).write_text(_summary_csv(summary),
-                                                                encoding="utf-8"),
-                 overwrite=True)
+    text = _summary_csv(summary)
+    write_outputs([(out, layers_writer(layers)),
+                   (summary_path, lambda tmp: Path(tmp).write_text(text, encoding="utf-8"),
+                    "summary")], overwrite=inp.overwrite)
     shutil.rmtree(parts_dir, ignore_errors=True)
     return BatchResult(out, summary_path, gdf, summary, len(parts), len(parts) - len(todo),
                        engine.name)

@@ -44,7 +44,7 @@ from .errors import ConvergenceWarning, InputError
 from .units import parse_quantity, show
 
 __all__ = ["Proposal", "CheckResult", "SPACING_CRITERIA", "read_proposal", "check_proposal",
-           "EDGE_TREATMENT", "PROPOSAL_KEYS"]
+           "confidence_criteria", "EDGE_TREATMENT", "PROPOSAL_KEYS"]
 
 #: Keys of a ``[proposal]`` section: kind of quantity.
 PROPOSAL_KEYS = {"name": "text", "lateral_spacing": "length", "depth": "length",
@@ -90,13 +90,13 @@ class SpacingCriterion:
     source: str
 
 
-def _design_spacing(p, method, depth, radius):
+def _design_spacing(p, method, depth, radius, k_scale=1.0):
     from .design import _spacing
 
     q = dataclasses.replace(p, drains={**p.drains, "radius": radius})
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", ConvergenceWarning)
-        r = _spacing(q, method, depth)
+        r = _spacing(q, method, depth, k_scale=k_scale)
     if r is None:
         return float("nan")
     if isinstance(r, Exception):
@@ -133,6 +133,38 @@ SPACING_CRITERIA = [
                       f"{p.criteria['days']:g} d (Glover–Dumm)"),
         "Glover–Dumm falling water table (Dumm 1954, 1964)"),
 ]
+
+
+def confidence_criteria(k_cv, confidence):
+    """The project's spacing criteria met with probability ``confidence`` when K is
+    lognormal with coefficient of variation ``k_cv`` around the project's K.
+
+    When only K varies and the spacing grows with K, P[L(K) >= L0] = P[K >= K0]:
+    the spacing met with confidence c is the deterministic spacing at
+    K_c = K50 exp(-z_c sigma), sigma = sqrt(ln(1 + cv^2)) (drainplan's method
+    notes 14.5; exact, no sampling). Every K of the project is scaled by the same
+    factor, so layered ratios are kept.
+    """
+    from .uncertainty import k_at_confidence, lognormal_log_sd
+
+    if not (math.isfinite(k_cv) and 0 < k_cv <= 5):
+        raise InputError(f"coefficient of variation of K {k_cv:g} must lie in (0, 5]",
+                         param="k_cv")
+    if not (0.5 <= confidence < 1):
+        raise InputError(f"confidence {confidence:g} must lie in [0.5, 1)", param="confidence")
+    f = k_at_confidence(1.0, lognormal_log_sd(k_cv), confidence)
+    out = []
+    for c in SPACING_CRITERIA:
+        method = (lambda p: _steady_method(p)) if c.key == "steady" else \
+            (lambda p: "glover-dumm")
+        out.append(SpacingCriterion(
+            f"{c.key} at {confidence:.0%} confidence", c.applies,
+            lambda p, z, r, m=method: _design_spacing(p, m(p), z, r, k_scale=f),
+            lambda p, u, c=c: (c.describe(p, u) + f", met with {confidence:.0%} "
+                               f"confidence for K lognormal with cv {k_cv:g} (K x {f:.3f})"),
+            c.source + "; K at confidence K50 exp(-z sigma), lognormal K (method notes "
+            "14.5, exact when only K varies)"))
+    return out
 
 
 # --------------------------------------------------------------------------- proposal
@@ -363,6 +395,11 @@ def _r(v, nd=3):
     return round(v, nd) if math.isfinite(v) else None
 
 
+def _slug(name):
+    """'steady at 80% confidence' -> 'steady_at_80pct_confidence'."""
+    return "_".join(name.replace("%", "pct").split())
+
+
 def _sig(v, digits=6):
     """Rounded to ``digits`` significant figures (None for NaN)."""
     v = float(v)
@@ -501,7 +538,8 @@ def _layout_lines(p, prop, work_crs):
     return res, outlet_pts
 
 
-def check_proposal(project, proposal, *, units=None, progress=None):
+def check_proposal(project, proposal, *, units=None, progress=None, k_cv=None,
+                   confidence=None):
     """Check ``proposal`` against every criterion of ``project``.
 
     Parameters
@@ -511,6 +549,10 @@ def check_proposal(project, proposal, *, units=None, progress=None):
     units : {"metric", "us"}, optional
         Units of the sentences in the result (default: the project's).
     progress : callable, optional
+    k_cv, confidence : float, optional
+        Coefficient of variation of K [-] and a confidence level (default 0.8):
+        adds each spacing criterion met with that confidence
+        (:func:`confidence_criteria`).
 
     Returns
     -------
@@ -773,6 +815,12 @@ def check_proposal(project, proposal, *, units=None, progress=None):
     # --- spacing criteria per lateral and side
     say("spacing criteria")
     crit_list = [c for c in SPACING_CRITERIA if c.applies(p)]
+    if k_cv is not None:
+        crit_list += [c for c in confidence_criteria(k_cv, 0.8 if confidence is None
+                                                     else confidence) if c.applies(p)]
+    elif confidence is not None:
+        raise InputError("a confidence level needs the spread of K: give --k-cv too",
+                         param="confidence")
     keys = np.round(depth, 4)
     allowed = {}
     for c in crit_list:
@@ -1024,7 +1072,7 @@ def check_proposal(project, proposal, *, units=None, progress=None):
             "capacity_l_s": _r(lat_cap[i] * 1000, 3),
             "grade": _sig(lat_grade[i]) if np.isfinite(lat_grade[i]) else None,
             "main_id": main_ids[net.lateral_main[i]] if net.lateral_main[i] >= 0 else None,
-            **{f"allowed_{k}_m": _r(v[0][i]) for k, v in lateral_checks.items()},
+            **{f"allowed_{_slug(k)}_m": _r(v[0][i]) for k, v in lateral_checks.items()},
             "meets": bool(lat_meets[i]), "fails": sorted(set(lat_fail[i])),
             "x": _r(lat_g[i].centroid.x, 2), "y": _r(lat_g[i].centroid.y, 2)})
     mains_out = []

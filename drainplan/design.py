@@ -282,7 +282,8 @@ def design(project, *, progress=None):
         max_depth=pp.get("max_depth", 2.0), min_velocity=pp.get("min_velocity", 0.15),
         max_velocity=pp.get("max_velocity", 1.5),
         ditch_water_level=pp.get("ditch_water_level"),
-        outfall_margin=pp.get("outfall_margin", 0.10), sizes_path=pp.get("sizes"))
+        outfall_margin=pp.get("outfall_margin", 0.10), sizes_path=pp.get("sizes"),
+        envelope=None if pp.get("envelope", "none") == "none" else pp.get("envelope"))
     pipes_plan = pipes_from_layers(
         lp.layers, lp.work_crs, lp.out_crs,
         PipesInputs(layout_path=None, options=popts, survey_path=pp.get("survey"),

@@ -136,12 +136,20 @@ class DaskCluster:
                 ac.add(self._client.submit(fn, nxt, pure=False))
 
 
+def available_cores():
+    """Cores this process may run on (its CPU affinity where the system tells it)."""
+    try:
+        return len(os.sched_getaffinity(0)) or 1
+    except (AttributeError, OSError):
+        return os.cpu_count() or 1
+
+
 def make_engine(*, workers=None, scheduler=None):
     """The engine for ``--workers`` / ``--scheduler`` (workers default: the core count)."""
     if scheduler:
         return DaskCluster(scheduler)
     if workers is None:
-        workers = os.cpu_count() or 1
+        workers = available_cores()
     if workers < 1:
         raise InputError("--workers must be 1 or more", param="workers")
     return InProcess() if workers == 1 else LocalProcesses(workers)

@@ -336,6 +336,32 @@ def scale_error(crs, gdf):
     return float(np.max(np.abs(k - 1.0))) if k.size else float("inf")
 
 
+#: Farthest an outlet may lie from the nearest field [m].
+MAX_OUTLET_DISTANCE = 20_000.0
+
+
+def check_outlet_near(points, geoms, file_crs=None):
+    """Refuse outlet points (working CRS, metres) that are not finite or lie more than
+    :data:`MAX_OUTLET_DISTANCE` from every field: a point given in the wrong CRS or
+    with its coordinates swapped."""
+    import shapely
+
+    pts = np.asarray(points, float).reshape(-1, 2)
+    usable = [g for g in geoms if g is not None]
+    if not usable:
+        return
+    where = f" (in {file_crs.to_string()}, the fields file's CRS)" if file_crs else ""
+    if not np.all(np.isfinite(pts)):
+        raise InputError(f"the outlet is not near the fields: its coordinates{where} do not "
+                         "transform to a nearby position", param="outlet")
+    union = shapely.union_all(np.array(usable, dtype=object))
+    d = shapely.distance(shapely.points(pts), union)
+    if np.max(d) > MAX_OUTLET_DISTANCE:
+        raise InputError(f"the outlet is not near the fields: it lies {np.max(d) / 1000:,.1f} "
+                         f"km from the nearest one; give it in the fields' coordinates{where}",
+                         param="outlet")
+
+
 def field_overlaps(geoms, ids, *, min_area=1.0):
     """Pairs of fields that overlap by more than ``min_area`` [m2]:
     list of (id_a, id_b, shared area m2)."""

@@ -155,6 +155,10 @@ def plan_layout(inp: LayoutInputs) -> LayoutPlan:
     elif inp.outlet is not None:
         pt = gpd.GeoSeries([shapely.Point(inp.outlet)], crs=file_crs).to_crs(work_crs)
         outlet_pts = shapely.get_coordinates(pt.values)
+    if len(outlet_pts):
+        from .gisio import check_outlet_near
+
+        check_outlet_near(outlet_pts, geoms, file_crs)
 
     user_mains = None
     if inp.main_path is not None:
@@ -344,8 +348,14 @@ def plan_layout(inp: LayoutInputs) -> LayoutPlan:
                      f"mains to {len(net['outlets'])} outlet point(s) (layer 'trunk')")
     if inp.survey_path is None and not len(net["outlets"]) and \
             inp.options.main_side == "auto" and inp.options.pattern == "parallel":
-        notes.append("main side assumed: the low-t end of each field's laterals (west or "
-                     "south for most bearings); give --outlet, a --survey, or --main-side "
+        from .geometry.layout import COMPASS
+
+        names = list(COMPASS)
+        end = lambda b: names[int(round(((b + 180.0) % 360.0) / 45.0)) % 8]  # noqa: E731
+        sides = [f"field {ids[i]}: {end(lay.bearing[i])}" for i in np.flatnonzero(used)][:6]
+        notes.append("main side assumed (no outlet point and no elevations given): "
+                     + ", ".join(sides) + (" ..." if used.sum() > 6 else "")
+                     + " end of the laterals; give --outlet, a --survey, or --main-side "
                      "N|E|S|W... to choose it")
     for i in np.flatnonzero(used & (per["laterals"] == 0)):
         why = _why_empty(geoms[i], lay.insets[i], lay.regions[i], inp.options, lay.spacing)

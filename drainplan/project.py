@@ -68,7 +68,8 @@ SCHEMA = {
               "min_cover": ("length", False), "max_depth": ("length", False),
               "min_velocity": ("number", False), "max_velocity": ("number", False),
               "ditch_water_level": ("length", False), "outfall_margin": ("length", False),
-              "sizes": ("path", False), "accept_coefficient_below_peak": ("bool", False)},
+              "sizes": ("path", False), "accept_coefficient_below_peak": ("bool", False),
+              "envelope": ("choice:none|sock|gravel", False)},
     "report": {"units": ("choice:metric|us", False), "paper": ("choice:A4|Letter", False),
                "logo": ("path", False)},
     # season simulation over a daily weather record (weather is required in the section)

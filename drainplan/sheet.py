@@ -648,7 +648,9 @@ def build_sheet(summary, figures_png, path, *, units="metric", paper="A4", logo=
     else:
         shown = reaches
     prow = [["Reach", f"Length ({L_u})", "Area", f"Flow ({qu})", "Grade", "Size",
-             P(f"Usable cap. ({qu})", "cell"), f"V ({vu})", "Used",
+             P(f"Usable capacity, "
+               f"{(s['inputs'].get('pipes') or {}).get('capacity_factor', 0.75):.0%} of full "
+               f"({qu})", "cell"), f"V ({vu})", "Used",
              f"Inverts up/down ({L_u})", f"Cover ({L_u})"]]
     for r in shown:
         prow.append([T(r["reach_id"]), f"{f.to(r['length_m'], 'length'):.0f}",

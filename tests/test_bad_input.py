@@ -54,36 +54,41 @@ BAD = [
      "coordinates must be finite numbers"),
     ("outlet 1e15", LAYOUT, ["--outlet", "1e15,5000000"],
      {("fields", "outlet"): [1e15, 5e6]}, "cannot be a real position"),
+    ("outlet far away", LAYOUT, ["--outlet", "1,2"], None, "the outlet is not near the fields"),
+    ("outlet far away, metres", LAYOUT, ["--outlet", "500000,4000000"], None,
+     "the outlet is not near the fields"),
+    ("capacity factor denormal", PIPES, ["--capacity-factor", "1e-320"],
+     {("pipes", "capacity_factor"): 1e-320}, "capacity factor must be between 0.1 and 1"),
     ("min velocity inf", PIPES, ["--min-velocity", "inf"], {("pipes", "min_velocity"): math.inf},
-     "minimum velocity must be greater than 0 m/s"),
+     "minimum velocity must be between 0.01 m/s and 10 m/s"),
     ("min velocity nan", PIPES, ["--min-velocity", "nan"], {("pipes", "min_velocity"): math.nan},
-     "minimum velocity must be greater than 0 m/s"),
+     "minimum velocity must be between 0.01 m/s and 10 m/s"),
     ("min velocity 0", PIPES, ["--min-velocity", "0"], {("pipes", "min_velocity"): 0},
-     "minimum velocity must be greater than 0 m/s"),
+     "minimum velocity must be between 0.01 m/s and 10 m/s"),
     ("max velocity negative", PIPES, ["--max-velocity", "-1"],
-     {("pipes", "max_velocity"): -1}, "maximum velocity must be greater than 0 m/s"),
+     {("pipes", "max_velocity"): -1}, "maximum velocity must be between 0.01 m/s and 10 m/s"),
     ("velocities crossed", PIPES, ["--min-velocity", "1.2", "--max-velocity", "0.5"],
      {("pipes", "min_velocity"): 1.2, ("pipes", "max_velocity"): 0.5},
      "must be less than"),
     ("max grade inf", PIPES, ["--max-grade", "inf"], {("pipes", "max_grade"): math.inf},
      "finite"),
     ("max grade above 100 %", PIPES, ["--max-grade", "150 %"],
-     {("pipes", "max_grade"): "150 %"}, "maximum grade must be greater than 0 %"),
+     {("pipes", "max_grade"): "150 %"}, "maximum grade must be between 0.001 % and 100 %"),
     ("min grade negative", PIPES, ["--min-grade", "-0.1 %"], {("pipes", "min_grade"): "-0.1 %"},
-     "minimum grade must be greater than 0 %"),
+     "minimum grade must be at least 0.001 % and less than 100 %"),
     ("grades crossed", PIPES, ["--min-grade", "6 %", "--max-grade", "5 %"],
      {("pipes", "min_grade"): "6 %", ("pipes", "max_grade"): "5 %"}, "must be less than"),
     ("assumed grade inf", PIPES, ["--assumed-grade", "inf"], None, "finite"),
     ("assumed grade 0", PIPES, ["--assumed-grade", "0"], None,
-     "assumed grade must be greater than 0 %"),
+     "assumed grade must be at least 0.001 %"),
     ("outfall margin -1", PIPES, ["--outfall-margin", "-1"],
      {("pipes", "outfall_margin"): "-1 m"}, "outfall margin must be between 0 m"),
     ("capacity factor 0", PIPES, ["--capacity-factor", "0"], {("pipes", "capacity_factor"): 0},
-     "capacity factor must be greater than 0"),
+     "capacity factor must be between 0.1 and 1"),
     ("capacity factor 2", PIPES, ["--capacity-factor", "2"], {("pipes", "capacity_factor"): 2},
-     "capacity factor must be greater than 0 and at most 1"),
+     "capacity factor must be between 0.1 and 1"),
     ("coefficient negative", PIPES, ["--coefficient", "-1 mm/d"],
-     {("pipes", "coefficient"): "-1 mm/d"}, "drainage coefficient must be greater than 0"),
+     {("pipes", "coefficient"): "-1 mm/d"}, "drainage coefficient must be between 0.0001 m/d and 1 m/d"),
     ("min cover negative", PIPES, ["--min-cover", "-0.1 m"], {("pipes", "min_cover"): "-0.1 m"},
      "minimum cover must be between 0 m"),
     ("max depth 0", PIPES, ["--max-depth", "0 m"], {("pipes", "max_depth"): "0 m"},
@@ -97,18 +102,18 @@ BAD = [
     ("drain depth negative", None, None, {("drains", "depth"): ["-1 m"]},
      "drain depth must be greater than 0 m"),
     ("drain radius 0", None, None, {("drains", "radius"): "0 m"},
-     "drain radius must be greater than 0 m"),
+     "drain radius must be between 0.001 m and 1 m"),
     ("recharge 0", SPACING, ["--recharge", "0"], {("criteria", "recharge"): "0 mm/d"},
      "recharge"),
     ("recharge negative", SPACING, ["--recharge", "-0.01"],
      {("criteria", "recharge"): "-1 mm/d"}, "recharge"),
-    ("days 0", None, None, {("criteria", "days"): 0}, "drawdown time must be greater than 0 d"),
+    ("days 0", None, None, {("criteria", "days"): 0}, "drawdown time must be between 0.01 d and 365 d"),
     ("days negative", None, None, {("criteria", "days"): -1},
-     "drawdown time must be greater than 0 d"),
+     "drawdown time must be between 0.01 d and 365 d"),
     ("porosity 0", None, None, {("soil", "drainable_porosity"): 0},
-     "drainable porosity must be greater than 0 and less than 1"),
+     "drainable porosity must be between 0.001 and 0.6"),
     ("porosity 1", None, None, {("soil", "drainable_porosity"): 1},
-     "drainable porosity must be greater than 0 and less than 1"),
+     "drainable porosity must be between 0.001 and 0.6"),
     ("final above initial", None, None, {("criteria", "initial_depth"): "0.5 m",
                                          ("criteria", "final_depth"): "0.3 m"},
      "criteria.initial_depth (0.5 m) must be less than criteria.final_depth (0.3 m)"),
@@ -119,11 +124,11 @@ BAD = [
     ("water-table depth negative", None, None, {("criteria", "water_table_depth"): "-1 m"},
      "water-table depth must be between 0 m"),
     ("k_vertical 0", None, None, {("soil", "k_vertical"): "0 m/d"},
-     "vertical conductivity must be greater than 0 m/d"),
+     "vertical conductivity must be between 1e-05 m/d and 1000 m/d"),
     ("interface depth negative", None, None, {("soil", "interface_depth"): "-1 m"},
      "depth of the layer interface must be between 0 m"),
     ("k negative", None, None, {("soil", "k_above"): "-0.8 m/d"},
-     "conductivity above drain level must be greater than 0 m/d"),
+     "conductivity above drain level must be between 1e-05 m/d"),
     ("barrier depth 0", None, None, {("soil", "barrier_depth"): "0 m"},
      "depth to the barrier must be greater than 0 m"),
     ("logo is a device", None, None, {("report", "logo"): "/dev/zero"},
@@ -307,3 +312,91 @@ def test_range_table_edges(key):
         outside = bound + step * max(1e-6, abs(bound) * 1e-6)
         with pytest.raises(InputError):
             check_quantity(key, outside)
+
+
+# ---------------------------------------------------------------------------
+# any text at all: refused in one line or accepted within its range
+# ---------------------------------------------------------------------------
+
+_UNITS = ["", "m", "cm", "mm", "ft", "in", "km", "m/d", "mm/d", "in/d", "in/h", "d", "h",
+          "%", "deg", "m/s", "kg", "ha", "m**2"]
+_TEXT = st.one_of(
+    st.floats(allow_nan=True, allow_infinity=True).map(repr),
+    st.tuples(st.floats(allow_nan=True, allow_infinity=True, width=32),
+              st.sampled_from(_UNITS)).map(lambda t: f"{t[0]!r} {t[1]}".strip()),
+    st.sampled_from(["", " ", "m", "cm", "9**9**9 m/d", "1e400", "-0", "3/0 in/d",
+                     "1/2/3 m", "0x10", "1_000", "½ in", "nan m", "1 m m", "(1) m",
+                     "1e-320 m", "1e308 km"]),
+    st.text(max_size=12),
+)
+
+
+def _numeric_options():
+    from drainplan.cli.layout import layout
+    from drainplan.cli.options import Number, Quantity
+    from drainplan.cli.pipes import pipes
+
+    return [(c.name, p) for c in (layout, pipes) for p in c.params
+            if isinstance(p.type, (Quantity, Number)) and getattr(p.type, "check", None)]
+
+
+@settings(max_examples=60, deadline=None)
+@given(data=st.data(), text=_TEXT)
+def test_any_option_text_is_clean(data, text):
+    """Property: any text typed for a checked option is refused with a BadParameter
+    (one line, exit 2) or gives a finite value inside the option's range."""
+    import click
+
+    cmd, param = data.draw(st.sampled_from(_numeric_options()))
+    try:
+        v = param.type.convert(text, param, None)
+    except click.BadParameter as exc:
+        assert "\n" not in exc.format_message()
+        return
+    r = QUANTITIES[param.type.check]
+    assert math.isfinite(v)
+    assert (r.lo is None or v >= r.lo) and (r.hi is None or v <= r.hi), (cmd, text, v)
+
+
+def _numeric_keys():
+    from drainplan.project import SCHEMA
+
+    numeric = ("length", "rate", "time", "fraction", "number", "direction", "radius")
+    return [(s, k) for s, keys in SCHEMA.items() for k, (kind, _) in keys.items()
+            if kind in numeric]
+
+
+@settings(max_examples=60, deadline=None)
+@given(key=st.sampled_from(_numeric_keys()),
+       value=st.one_of(_TEXT, st.floats(allow_nan=True, allow_infinity=True),
+                       st.integers(-10**30, 10**30), st.booleans()))
+def test_any_project_value_is_clean(tmp_path_factory, key, value):
+    """Property: any value of a numeric project key is refused with one InputError
+    line naming the key, or read as a finite value inside its range."""
+    from drainplan.project import CHECKED_AS
+
+    tmp = tmp_path_factory.mktemp("k")
+    path = project_with(tmp, {key: value})
+    try:
+        p = load_project(path, check_files=False)
+    except InputError as exc:
+        assert "\n" not in str(exc)
+        return
+    section, name = key
+    got = getattr(p, section)[name]
+    q = CHECKED_AS.get(key, name)
+    if q in QUANTITIES and not isinstance(got, str):
+        for v in (got if isinstance(got, list) else [got]):
+            assert math.isfinite(v)
+            check_quantity(q, v)
+
+
+def test_outlet_far_from_the_fields_in_a_project(run, tmp_path):
+    """An outlet in the wrong CRS is found once the fields are read: one line, exit 2."""
+    _setup(tmp_path)
+    path = project_with(tmp_path, {("fields", "outlet"): [1.0, 2.0]})
+    r = run("-q", "design", path, "-o", tmp_path / "out")
+    assert r.exit_code == 2, r.output
+    lines = r.stderr.strip().splitlines()
+    assert len(lines) == 1 and "the outlet is not near the fields" in lines[0]
+    assert not (tmp_path / "out").exists()

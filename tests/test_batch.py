@@ -10,7 +10,6 @@ depth, each weighted by the area of the field inside each soil polygon.
 
 import json
 import math
-import os
 import signal
 import subprocess
 import sys
@@ -69,6 +68,7 @@ FIELDS = {
     "X2": shapely.Polygon([(X0 + 700, Y0 + 1100), (X0 + 1300, Y0 + 1150),
                            (X0 + 1250, Y0 + 1500), (X0 + 750, Y0 + 1450)]),  # irregular
     "OUT": box(300, 2300, 700, 2600),         # north of the soil map
+    "N1": box(100, 1700, 115, 1950),          # 15 m wide: narrower than its spacing
 }
 
 
@@ -170,7 +170,7 @@ def test_fields_outside_the_soil_map_are_reported_not_guessed(run, inputs, tmp_p
     assert np.isnan(got.loc["OUT", "spacing_m"]) and np.isnan(got.loc["OUT", "soil_k_m_d"])
     summary = {row["item"]: row["value"] for row in json.loads(r.stdout)["summary"]}
     assert summary["fields not covered by the soil map"] == 1
-    assert summary["fields designed"] == 4
+    assert summary["fields designed"] == 5
     csv = (tmp_path / "b_summary.csv").read_text()
     assert "fields not covered by the soil map,1," in csv
 
@@ -246,7 +246,9 @@ def _frame(path):
 def test_same_results_with_one_and_two_workers(run, inputs, tmp_path):
     a, b = tmp_path / "a.gpkg", tmp_path / "b.gpkg"
     assert run(*batch_args(inputs, a, "--workers", "1", "--partition-size", "1")).exit_code == 0
-    r = run(*batch_args(inputs, b, "--workers", "2", "--partition-size", "2", "--with-lines"))
+    # all fields in one partition on two workers: the narrow field N1 shares its layout
+    # call with W1 (same spacing) instead of having one of its own
+    r = run(*batch_args(inputs, b, "--workers", "2", "--with-lines"))
     assert r.exit_code == 0, r.output
     fa, fb = _frame(a), _frame(b)
     assert list(fa["field_id"]) == list(FIELDS)                  # input order
@@ -314,3 +316,54 @@ def test_kill_in_the_middle_then_resume(tmp_path):
     subprocess.run(command(whole), check=True, capture_output=True)
     assert_geodataframe_equal(_frame(out), _frame(whole))
     assert Path(out).read_bytes() == whole.read_bytes()
+
+
+def test_project_soil_gives_the_design_commands_spacing(run, tmp_path):
+    """Without a soil map every field takes the project's [soil]; the demo farm's
+    two-layer soil, steady and falling criteria and three drain depths give the depth
+    and spacing that `drainplan design` chooses for the same project."""
+    from drainplan.design import design
+    from drainplan.project import load_project
+
+    root = Path(__file__).resolve().parents[1] / "demo_fields"
+    out = tmp_path / "b.gpkg"
+    r = run("batch", root / "fields.geojson", "--project", root / "project.toml", "-o", out,
+            "--workers", "1")
+    assert r.exit_code == 0, r.output
+    got = read_fields(out)
+    want = design(load_project(root / "project.toml")).summary["design"]
+    assert (got["status"] == "designed").all()
+    assert (got["drain_depth_m"] == want["drain_depth_m"]).all()
+    assert (got["spacing_m"] == want["spacing_m"]).all()
+    assert np.allclose(got["spacing_calc_m"], want["spacing_before_rounding_m"], atol=1e-3)
+    assert (got["governing"] == want["governing_criterion"]).all()
+
+
+def test_resume_refuses_other_inputs(run, inputs, tmp_path):
+    out = tmp_path / "b.gpkg"
+    parts = tmp_path / ".b.gpkg.parts"
+    parts.mkdir()
+    (parts / "manifest.json").write_text('{"fingerprint": "another run"}')
+    r = run(*batch_args(inputs, out, "--resume", "--workers", "1"))
+    assert r.exit_code == 2 and "--overwrite" in r.output
+    r = run(*batch_args(inputs, out, "--workers", "1"))
+    assert r.exit_code == 2 and "--resume" in r.output
+    r = run(*batch_args(inputs, out, "--workers", "1", "--overwrite"))
+    assert r.exit_code == 0 and not parts.exists()
+
+
+def test_progress_on_stderr_and_quiet(inputs, tmp_path):
+    from click.testing import CliRunner
+
+    from drainplan.cli import cli
+
+    runner = CliRunner()
+    r = runner.invoke(cli, [str(a) for a in batch_args(
+        inputs, tmp_path / "a.gpkg", "--workers", "1", "--partition-size", "2")])
+    assert r.exit_code == 0, r.output
+    n = len(FIELDS)
+    assert f"fields {n} / {n} (100 %)" in r.stderr and "fields/s" in r.stderr
+    assert "fields/s" not in r.stdout
+    r = runner.invoke(cli, ["-q", *[str(a) for a in batch_args(
+        inputs, tmp_path / "b.gpkg", "--workers", "1")]])
+    assert r.exit_code == 0 and r.stderr == ""

@@ -461,3 +461,40 @@ def test_design_numbers_meet_every_criterion(tmp_path):
     assert out["verdict"] == "meets", [c["text"] for c in out["criteria"] if not c["meets"]]
     assert {"steady", "falling", "lateral capacity", "main capacity"} <= {
         c["name"] for c in out["criteria"]}
+
+
+def test_herringbone_sides_are_not_neighbours():
+    """Laterals at +45 and -45 degrees either side of a main: each measures the
+    perpendicular spacing of its own side, 20 sin 45 = 14.14 m (plane geometry)."""
+    from drainplan.geometry.proposal import measure_laterals
+
+    field = np.array([shapely.box(-20, -110, 340, 110)])
+    up = [shapely.LineString([(x, 1), (x + 100, 101)]) for x in np.arange(0.0, 221.0, 20.0)]
+    down = [shapely.LineString([(x, -1), (x + 100, -101)]) for x in np.arange(0.0, 221.0, 20.0)]
+    g = measure_laterals(np.array(up + down, dtype=object), field)
+    inner = [i for i in range(len(up) + len(down)) if i % len(up) not in (0, len(up) - 1)]
+    assert g.local_spacing[inner] == pytest.approx(20 * math.sin(math.pi / 4), rel=1e-6)
+
+
+def test_confidence_criterion(run, tmp_path):
+    """--k-cv adds the steady criterion met with 80 % confidence: the spacing at
+    K_c = K50 exp(-z sigma), sigma = sqrt(ln(1 + cv^2)) (lognormal moments; z from
+    scipy.stats.norm, the reference library)."""
+    from scipy.stats import norm
+
+    from drainplan.spacing import drain_spacing, effective_radius
+
+    proj = _project(tmp_path)
+    prop = _lines_file(tmp_path, list(np.arange(10.0, 300.0, 20.0)))
+    out = json.loads(run("check", proj, "--proposal", prop, "--k-cv", "0.5",
+                         "--json").stdout)
+    kc = 0.6 * math.exp(-norm.ppf(0.8) * math.sqrt(math.log(1 + 0.5 ** 2)))
+    expect = float(drain_spacing(method="hooghoudt", drain_depth=1.0, barrier_depth=3.0,
+                                 drain_radius=effective_radius("sock-4in"), k=kc,
+                                 recharge=0.007, water_table_depth=0.5).spacing)
+    c = next(c for c in out["criteria"] if c["name"] == "steady at 80% confidence")
+    assert c["required"] == pytest.approx(expect, rel=1e-3)
+    assert c["meets"] is (20.0 <= expect)
+    assert expect < next(x for x in out["criteria"] if x["name"] == "steady")["required"]
+    r = run("check", proj, "--proposal", prop, "--confidence", "0.9")
+    assert r.exit_code == 2 and "--k-cv" in r.stderr

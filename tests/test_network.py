@@ -282,3 +282,71 @@ def test_demo_pipes_mass_balance_and_takeoff(run, demo_layout, tmp_path):
                 (t["size"].startswith("tee") or t["size"].startswith("coupling")))
     assert n_tee >= len(lat)
     assert sum(t["count"] for t in job if "animal guard" in t["size"]) == 1
+
+
+def test_power_law_outside_its_range_is_said_once_per_kind():
+    # enough flow that the main needs more than 200 mm: the power law (fitted to field
+    # drain pipes of about 40-200 mm, Cavelaars et al. 1994, ILRI Publ. 16 ch. 21,
+    # recalled) is flagged there, once in the grouped problems
+    runs, car = comb()
+    d = design_network(runs, car, PipeOptions(coefficient=0.08, method="power-law",
+                                              max_depth=3.0),
+                       surface=lambda xy: np.full(len(xy), 50.0))
+    flagged = [v for v in d.violations if v["kind"] == "power law range"]
+    big = [r for r in d.reaches if (r.get("inner_diameter_mm") or 0) > 200]
+    assert big and len(flagged) == len(big)
+    assert sum("power-law capacity used outside" in g for g in d.problem_summary) == 1
+    # the usable share of the full capacity travels with every reach
+    assert all(r["usable_capacity_pct"] == 75.0 for r in d.reaches)
+
+
+# --- property: every cut-off piece is collected by a route inside its field --------
+from hypothesis import assume, given, settings, strategies as st  # noqa: E402
+
+from drainplan.errors import InputError  # noqa: E402
+from drainplan.geometry.layout import LayoutOptions, layout_fields  # noqa: E402
+from drainplan.network.routing import route_submains  # noqa: E402
+
+
+@st.composite
+def field_with_pond(draw):
+    k = draw(st.integers(5, 9))
+    ang = np.sort(np.array(draw(st.lists(st.floats(0, 2 * np.pi), min_size=k, max_size=k,
+                                         unique=True))))
+    rad = np.array(draw(st.lists(st.floats(0.6, 1.0), min_size=k, max_size=k)))
+    scale = draw(st.floats(200, 500))
+    poly = shapely.Polygon(np.c_[np.cos(ang) * rad, np.sin(ang) * rad] * scale)
+    assume(poly.is_valid and poly.area > 4e4)
+    c = poly.centroid
+    dx, dy = draw(st.floats(-0.3, 0.3)), draw(st.floats(-0.3, 0.3))
+    pond = shapely.Point(c.x + dx * scale, c.y + dy * scale).buffer(draw(st.floats(15, 60)))
+    return poly, pond
+
+
+@settings(max_examples=40, deadline=None)
+@given(fp=field_with_pond(), bearing=st.floats(0, 179.9), setback=st.floats(0, 20))
+def test_submains_collect_cut_off_pieces(fp, bearing, setback):
+    poly, pond = fp
+    try:
+        lay = layout_fields([poly], LayoutOptions(spacing=18.0, direction=bearing,
+                                                  min_length=0.0),
+                            exclusions=[pond], exclusion_setbacks=[setback])
+    except InputError:
+        assume(False)
+    sub = route_submains(lay.unconnected, lay.unconnected_field, np.array([poly]),
+                         lay.mains, lay.zones, lay.features)
+    network = [lay.mains[0]]
+    for k, (line, to) in enumerate(zip(sub.lines, sub.to)):
+        # inside the field, clear of the pond itself
+        assert shapely.covered_by(line, poly.buffer(1e-3))
+        assert shapely.length(shapely.intersection(line, pond.buffer(-1e-3))) < 1e-6
+        # starts at the piece it serves, ends on the main or an earlier sub-main
+        piece = lay.unconnected[sub.piece[k]]
+        assert shapely.distance(shapely.Point(line.coords[0]), piece) < 1e-6
+        target = lay.mains[0] if to[0] == "main" else sub.lines[to[1]]
+        assert to[0] == "main" or to[1] < k
+        assert shapely.distance(shapely.Point(line.coords[-1]), target) < 1e-3
+        network.append(line)
+    # every piece is collected, touches the network, or has a reason
+    for i in range(len(lay.unconnected)):
+        assert sub.served[i] != -1 or sub.reason[i]

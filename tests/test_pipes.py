@@ -79,6 +79,15 @@ def test_manning_n_table():
     assert_allclose(manning_n("corrugated", np.array([0.1016, 0.254, 0.381])),
                     [0.015, 0.017, 0.020])
     assert manning_n("clay", 0.15) == 0.013
+    # between the handbook's size bands n changes smoothly (interpolated in log d, the
+    # anchors at the nominal sizes): two pipes 2 mm apart differ by well under 1 % in
+    # capacity at one grade, where a step in n gave about 13 %
+    d = np.array([0.228, 0.230])
+    cap = manning_full_capacity(d, 0.001, manning_n("corrugated", d))
+    assert abs(cap[1] / cap[0] - (0.230 / 0.228) ** (8 / 3)) < 0.01
+    assert np.all(np.diff(manning_n("corrugated", np.linspace(0.05, 0.6, 200))) >= 0)
+    n, source, confidence = manning_n("corrugated", 0.1, with_source=True)
+    assert "Engineering Handbook" in source and confidence == "memory"
 
 
 @settings(max_examples=100, deadline=None)

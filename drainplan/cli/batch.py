@@ -8,6 +8,7 @@ import time
 
 import click
 
+from ..errors import DrainplanError
 from .options import FRACTION
 
 
@@ -28,12 +29,12 @@ from .options import FRACTION
               help="Soil-map polygon layer; each field gets the area-weighted values of "
                    "the polygons it overlaps (geometric mean for K).")
 @click.option("--soil-layer", help="Layer of the soil-map file.")
-@click.option("--soil-k-column", help="Column holding K (in the soil map, or in the fields "
-                                      "file without --soil); default 'k' if present.")
+@click.option("--soil-k-column", help="Column holding K: in the soil map (default 'k'), or "
+                                      "without --soil in the fields file itself.")
 @click.option("--soil-barrier-column", help="Column holding the barrier depth below the "
-                                            "surface; default 'barrier_depth' if present.")
-@click.option("--soil-porosity-column", help="Column holding the drainable porosity; "
-                                             "default 'drainable_porosity' if present.")
+                                            "surface (soil-map default 'barrier_depth').")
+@click.option("--soil-porosity-column", help="Column holding the drainable porosity "
+                                             "(soil-map default 'drainable_porosity').")
 @click.option("--soil-units", help="Units of the soil columns, e.g. 'k=in/h,barrier=ft,"
                                    "porosity=%' (default m/d, m and fraction, unless the "
                                    "column name ends in a unit: k_in_h, barrier_cm).")
@@ -83,6 +84,10 @@ def batch(ctx, fields, output, project_path, layer, id_attribute, crs, work_crs,
     from ..soilmap import parse_soil_units
 
     quiet = bool(ctx.obj and ctx.obj.get("quiet"))
+    if plot:                     # refused now rather than after a long run
+        from ..gisio import check_output_target
+
+        check_output_target(plot, overwrite=overwrite, param="plot")
     settings = load_batch_settings(project_path)
     columns = {k: v for k, v in (("k", soil_k_column), ("barrier_depth", soil_barrier_column),
                                  ("drainable_porosity", soil_porosity_column)) if v}
@@ -106,7 +111,11 @@ def batch(ctx, fields, output, project_path, layer, id_attribute, crs, work_crs,
             text += f" (+{resumed:,} from the interrupted run)"
         click.echo(text, err=True)
 
-    result = run_batch(inp, progress=progress)
+    try:
+        result = run_batch(inp, progress=progress)
+    except KeyboardInterrupt:
+        raise DrainplanError("interrupted; the partitions finished so far are kept: run the "
+                             "same command with --resume to continue") from None
     if plot:
         from ..batch_map import write_spacing_map
 

@@ -20,11 +20,17 @@ from .options import json_option
               help="Folder for the check sheet (PDF), the proposal's lines with their "
                    "verdicts (GeoPackage) and check.json.")
 @click.option("--overwrite", is_flag=True, help="Replace the contents of a non-empty folder.")
+@click.option("--k-cv", type=float,
+              help="Coefficient of variation of K (e.g. 0.5): also check each spacing "
+                   "criterion met with --confidence when K is lognormal.")
+@click.option("--confidence", type=float,
+              help="Confidence level for --k-cv, 0.5-0.99 (default 0.8).")
 @click.option("--units", type=click.Choice(["metric", "us"]), default=None,
               help="Units of the printed results (default: the project's).")
 @json_option
 @click.pass_context
-def check(ctx, project_path, proposal_path, crs, output, overwrite, units, as_json):
+def check(ctx, project_path, proposal_path, crs, output, overwrite, k_cv, confidence, units,
+          as_json):
     """Check the proposal in --proposal against every criterion of PROJECT.toml.
 
     Each lateral is checked at its own local spacing (measured on a drawn
@@ -47,7 +53,7 @@ def check(ctx, project_path, proposal_path, crs, output, overwrite, units, as_js
     project = load_project(project_path)
     proposal = read_proposal(proposal_path, crs=crs)
     u = units or project.report.get("units", "metric")
-    result = check_proposal(project, proposal, units=u)
+    result = check_proposal(project, proposal, units=u, k_cv=k_cv, confidence=confidence)
     paths = []
     if out is not None:
         from ..check_sheet import write_check_outputs

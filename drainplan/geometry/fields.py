@@ -147,8 +147,11 @@ def drainable_regions(fields, setback, exclusions=None, exclusion_setbacks=None)
         field_idx = np.flatnonzero(present)
         pairs = tree.query(fields[field_idx].astype(object), predicate="intersects")
         owners = field_idx[pairs[0]]
-        for f in np.unique(owners):
-            which = pairs[1][owners == f]
+        order = np.argsort(owners, kind="stable")       # group once: sort and split
+        owners, hits = owners[order], pairs[1][order]
+        starts = np.flatnonzero(np.r_[True, owners[1:] != owners[:-1]]) if owners.size \
+            else np.zeros(0, int)
+        for f, which in zip(owners[starts], np.split(hits, starts[1:])):
             zone = shapely.union_all(buffered[which])
             zones[f] = zone
             features[f] = shapely.union_all(ex[which])

@@ -396,10 +396,11 @@ def layout_fields(fields, options, *, exclusions=None, exclusion_setbacks=None,
     side = side[connected]
     t_m = t_main[connected]
     # lines numbered across each field (the second half of a herringbone continues)
-    line_offset = np.zeros(m, dtype=int)
-    for f in np.unique(sub_owner):
-        idx = np.flatnonzero(sub_owner == f)
-        line_offset[idx] = np.concatenate([[0], np.cumsum(grid.n_lines[idx])[:-1]])
+    # (sub_owner is sorted: one sort-and-split, no scan per field)
+    before = np.cumsum(grid.n_lines) - grid.n_lines
+    first_of = np.maximum.accumulate(np.where(np.r_[True, sub_owner[1:] != sub_owner[:-1]],
+                                              np.arange(m), 0)) if m else np.zeros(0, int)
+    line_offset = (before - before[first_of]).astype(int) if m else np.zeros(0, int)
 
     # junctions: one per lateral run (field, line, side)
     junctions = np.empty(0, dtype=object)
@@ -420,11 +421,13 @@ def layout_fields(fields, options, *, exclusions=None, exclusion_setbacks=None,
 
     # trim each main to its junctions, orient it towards the outlet
     outlets = np.full(n, None, dtype=object)
+    j_order = np.argsort(jfield, kind="stable")
+    j_bounds = np.searchsorted(jfield[j_order], np.arange(n + 1))
     for f in range(n):
         mf = mains[f]
         if mf is None:
             continue
-        js = junctions[jfield == f]
+        js = junctions[j_order[j_bounds[f]:j_bounds[f + 1]]]
         if js.size == 0:
             mains[f] = None
             continue

@@ -17,7 +17,9 @@ Edge laterals (no neighbour on one side inside the field) take the spacing
 of their one neighbour on that side too (their strip towards the field edge
 is half that spacing wide), and their distance to the field edge is reported
 so a reviewer can see an undrained margin. A lateral alone in its field takes
-twice its larger distance to the field edge as its spacing.
+twice its larger distance to the field edge as its spacing. A lateral at an angle
+(across the other side of a herringbone main) is no neighbour but bounds the
+ground like the field edge.
 """
 
 from __future__ import annotations
@@ -268,6 +270,15 @@ def measure_laterals(laterals, fields, *, regions=None, step=5.0, reach=1000.0,
     regions = fields if regions is None else np.asarray(regions, dtype=object)
     bounds = shapely.boundary(regions) if regions.size else np.zeros(0, object)
     el, er = _ray_hits(P, N, own, bounds, lambda o, t: fld[o] == t, reach)
+
+    def crossing_ok(o, t):
+        return (t != o) & (fld[t] == fld[o]) & (fld[o] >= 0) & (
+            np.abs(np.einsum("ij,ij->i", dirs[o], dirs[t])) < cos_tol)
+
+    # a lateral at an angle (the other side of a herringbone main) bounds the ground
+    # this one drains, as the field edge does
+    cl, cr = _ray_hits(P, N, own, lats, crossing_ok, reach)
+    el, er = np.minimum(el, cl), np.minimum(er, cr)
     edge_l = _side_median(np.where(np.isfinite(el), el, np.nan), own, n)
     edge_r = _side_median(np.where(np.isfinite(er), er, np.nan), own, n)
     # a neighbour beyond the field edge is no neighbour

@@ -38,9 +38,9 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..errors import InputError
-from .hydraulics import (CAPACITY_METHODS, DEFAULT_CAPACITY_FACTOR, design_flow,
-                         manning_full_capacity, manning_n, pipe_series, power_law_capacity,
-                         select_size)
+from .hydraulics import (CAPACITY_METHODS, DEFAULT_CAPACITY_FACTOR, POWER_LAW_RANGE,
+                         design_flow, manning_full_capacity, manning_n, pipe_series,
+                         power_law_capacity, power_law_outside, select_size)
 
 __all__ = ["PipeOptions", "LateralRun", "Carrier", "PipeDesign", "design_network",
            "design_pipes", "group_problems", "JUNCTION_RULE"]
@@ -182,10 +182,11 @@ def group_problems(violations, first=3):
 
 
 def _samples(line, extra=()):
-    """Chainages every ``_STEP`` m (ends and ``extra`` chainages included) and points."""
-    import shapely
-
-    length = float(line.length)
+    """Chainages every ``_STEP`` m (ends and ``extra`` chainages included) and points
+    (interpolated along the polyline's vertices with numpy)."""
+    c = np.asarray(line.coords, float)[:, :2]
+    cum = np.r_[0.0, np.cumsum(np.hypot(*np.diff(c, axis=0).T))]
+    length = float(cum[-1])
     n = max(2, int(np.ceil(length / _STEP)) + 1)
     ch = np.linspace(0.0, length, n)
     if len(extra):
@@ -193,7 +194,7 @@ def _samples(line, extra=()):
         near = np.abs(ch[:, None] - ex[None, :]).min(axis=1) < 1.0
         near[[0, -1]] = False
         ch = np.unique(np.r_[ch[~near], ex])
-    return ch, shapely.get_coordinates(shapely.line_interpolate_point(line, ch))
+    return ch, np.c_[np.interp(ch, cum, c[:, 0]), np.interp(ch, cum, c[:, 1])]
 
 
 def _highest_invert(ch, cap, min_grade, max_grade=None):
@@ -470,8 +471,19 @@ def design_network(runs, carriers, options, *, surface=None, outlets=None):
                                 car_z[cid][sel], series, options, violations, row["kind"])
         _high_side(runs, lat_s, ground_lat, violations)
     reaches = lat_rows + [r for cid in order for r in car_rows.get(cid, [])]
+    speed = []
     for row in reaches:
-        _velocity_checks(row, options, violations)
+        _velocity_checks(row, options, speed)
+    if surface is None:
+        # without elevations the grade is an assumption: one note, not one line per pipe
+        slow = [v for v in speed if v["kind"] == "slow"]
+        if slow:
+            notes.append(f"at the assumed grade {options.assumed_grade:.2%}, {len(slow)} "
+                         f"pipe(s) run below the self-cleaning velocity "
+                         f"{options.min_velocity:.2f} m/s full; give elevations to check "
+                         "the real grades")
+        speed = [v for v in speed if v["kind"] != "slow"]
+    violations.extend(speed)
 
     # ---- outlets: the flow at each
     out_ids = sorted({car[c].outlet for c in roots} | ({"own end"} if root_runs else set()))
@@ -734,14 +746,25 @@ def _size_rows(rows, series, options, violations, *, uniform_inflow, taper=False
         idx = np.where(run_max >= top, -1, run_max)
         d = series.inner_diameter[np.maximum(idx, 0)]
         cap = np.where(idx >= 0, _capacity(d, grade, series, options, uniform_inflow), np.nan)
-    for r, i, c, s in zip(rows, idx, cap, grade):
+    # full-flow capacity (velocity) and n of the chosen sizes, for all rows at once
+    ok = idx >= 0
+    d_all = series.inner_diameter[np.maximum(idx, 0)]
+    full_all = _capacity(d_all, grade, series, options, False) / options.capacity_factor
+    n_all = (np.atleast_1d(manning_n(series.material, d_all)) if options.method == "manning"
+             else None)
+    wall = "smooth" if series.material in ("smooth", "clay") else "corrugated"
+    outside = power_law_outside(d_all, wall) if options.method != "manning" else \
+        np.zeros(len(rows), bool)
+    big_full = None
+    for k, (r, i, c, s) in enumerate(zip(rows, idx, cap, grade)):
         r["material"] = series.material
         r["usable_capacity_pct"] = round(100.0 * options.capacity_factor, 1)
-        if i < 0:
+        if not ok[k]:
             biggest = series.nominal[-1]
-            dmax = float(series.inner_diameter[-1])
-            full = float(_capacity(np.array([dmax]), np.array([s]), series, options,
-                                   uniform_inflow)[0])
+            if big_full is None:
+                big_full = _capacity(np.full(len(rows), series.inner_diameter[-1]), grade,
+                                     series, options, uniform_inflow)
+            full = float(big_full[k])
             n_par = int(np.ceil(r["flow_l_s"] / (full * 1000.0))) if full > 0 else 0
             r.update(size=f"larger than {biggest}", inner_diameter_mm=None,
                      capacity_l_s=None, capacity_used_pct=None, velocity_m_s=None)
@@ -754,14 +777,25 @@ def _size_rows(rows, series, options, violations, *, uniform_inflow, taper=False
                 "split the area to a second outlet"))
             violations[-1]["summary"] = f"flow beyond the largest pipe ({biggest})"
             continue
-        d = float(series.inner_diameter[i])
+        d = float(d_all[k])
         r["size"] = series.nominal[i]
         r["inner_diameter_mm"] = round(d * 1000.0, 1)
         r["capacity_l_s"] = float(c) * 1000.0
         r["capacity_used_pct"] = 100.0 * r["flow_l_s"] / (float(c) * 1000.0) if c > 0 else None
-        full = _capacity(np.array([d]), np.array([s]), series, options, False)[0] \
-            / options.capacity_factor
-        r["velocity_m_s"] = float(full / (np.pi * d * d / 4.0))
+        r["velocity_m_s"] = float(full_all[k] / (np.pi * d * d / 4.0))
+        if n_all is not None:
+            r["manning_n"] = round(float(n_all[k]), 5)
+        elif outside[k]:
+            lo, hi = POWER_LAW_RANGE[wall]
+            r["warnings"].append("power law outside its diameter range")
+            violations.append(_violation(
+                "power law range", r["reach_id"], 0.0, r.get("_start"),
+                f"{r['size']} ({d * 1000:.0f} mm inside) lies outside the "
+                f"{lo * 1000:.0f}-{hi * 1000:.0f} mm the drain-pipe power law was "
+                "fitted to; its capacity may be overstated",
+                "check these reaches with --capacity-method manning"))
+            violations[-1]["summary"] = (f"power-law capacity used outside its "
+                                         f"{lo * 1000:.0f}-{hi * 1000:.0f} mm range")
 
 
 def _capacity(d, grade, series, options, uniform_inflow):

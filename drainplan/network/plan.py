@@ -18,7 +18,8 @@ __all__ = ["PipesInputs", "PipesPlan", "plan_pipes", "pipes_from_layers", "SCHED
 SCHEDULE_COLUMNS = ["reach_id", "kind", "field_id", "from", "to", "length_m", "drained_area_ha",
                     "flow_l_s", "grade", "material", "size", "inner_diameter_mm",
                     "capacity_l_s", "velocity_m_s", "capacity_used_pct", "invert_up_m",
-                    "invert_down_m", "cover_min_m", "usable_capacity_pct", "warnings"]
+                    "invert_down_m", "cover_min_m", "usable_capacity_pct", "manning_n",
+                    "warnings"]
 
 
 def schedule_headings(capacity_factor):

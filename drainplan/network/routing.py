@@ -345,11 +345,14 @@ def route_trunk(fields, main_ends, outlets, exclusions=None, *, mains=None, k_li
     src = np.repeat(np.arange(len(corners)), nn.shape[1])
     cand = np.stack([base + src, base + nn.ravel()], axis=1)
     both.append(cand[corner_f[src] != corner_f[nn.ravel()]])
-    # outlets to their nearest corners and system ends
-    for o in range(n_o):
-        _, nn = tree.query(outlets[o], k=min(len(corners), 3 * k))
-        both.append(np.stack([np.full(np.size(nn), o), base + np.ravel(nn)], axis=1))
-        both.append(np.stack([np.full(len(fe), o), n_o + fe], axis=1))
+    # outlets to their nearest corners and system ends (a few each: linear in fields)
+    _, nn = tree.query(outlets, k=min(len(corners), 3 * k))
+    nn = np.atleast_2d(nn).reshape(n_o, -1)
+    both.append(np.stack([np.repeat(np.arange(n_o), nn.shape[1]), base + nn.ravel()], axis=1))
+    _, ne = cKDTree(ends[fe]).query(outlets, k=min(len(fe), k))
+    ne = np.atleast_2d(ne).reshape(n_o, -1)
+    both.append(np.stack([np.repeat(np.arange(n_o), ne.shape[1]), n_o + fe[ne.ravel()]],
+                         axis=1))
     both = np.vstack(both)
     both = both[both[:, 0] != both[:, 1]]
     both = np.unique(np.sort(both, axis=1), axis=0)

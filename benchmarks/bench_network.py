@@ -1,0 +1,134 @@
+"""Benchmark: the drainage network (routing, vertical design, sizing) at 500, 1,000
+and 2,000 fields, to show how it grows.
+
+Invented irregular fields (5-80 ha, as in bench_layout.py) are laid out at 18 m
+spacing once per size (not timed); then the timed part builds the network — sub-mains
+for cut-off pieces, the trunk from every field's main to the nearest of one outlet
+point per 100 fields — and designs it (flows, vertical design from the outlets up on
+surveyed ground sampled through scipy's LinearNDInterpolator, sizes, checks,
+take-off). The machine's load average is recorded beside each figure. Run on demand:
+
+    python benchmarks/bench_network.py [--sizes 500 1000 2000] [--write]
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import platform
+import time
+
+for _v in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS"):
+    os.environ.setdefault(_v, "1")       # one BLAS thread, as the CLI runs
+
+import numpy as np
+import shapely
+
+from bench_layout import irregular_fields
+from drainplan.geometry.layout import LayoutOptions, layout_fields
+from drainplan.network.design import Carrier, LateralRun, PipeOptions, design_network
+from drainplan.network.routing import route_submains, route_trunk
+from drainplan.terrain import PointSurface
+
+
+def survey_for(fields, seed=3):
+    """Scattered survey points over the fields: a plane falling 0.3 % to the south-west
+    with gentle swells (invented)."""
+    rng = np.random.default_rng(seed)
+    x0, y0, x1, y1 = shapely.total_bounds(fields)
+    n = int(min(200_000, 4 * len(fields) * 25))
+    xy = np.c_[rng.uniform(x0 - 500, x1 + 500, n), rng.uniform(y0 - 500, y1 + 500, n)]
+    z = 100 + 0.002 * (xy[:, 0] - x0) + 0.001 * (xy[:, 1] - y0) + \
+        0.3 * np.sin(xy[:, 0] / 700.0) * np.cos(xy[:, 1] / 900.0)
+    return xy, z
+
+
+def build_and_design(fields, lay, outlets, surface, opts):
+    """Routing + network design of a laid-out set of fields (the timed part)."""
+    n = len(fields)
+    sub = route_submains(lay.unconnected, lay.unconnected_field, fields, lay.mains,
+                         lay.zones, lay.features)
+    ends = [np.asarray(o.coords[0]) if o is not None else None for o in lay.outlets]
+    trunk = route_trunk(fields, ends, outlets, mains=lay.mains)
+    ids = [f"F{i}" for i in range(n)]
+    main_id = {f: f"{ids[f]}-M" for f in range(n) if lay.mains[f] is not None}
+    tid = [f"T{k}" for k in range(len(trunk.lines))]
+
+    def target(t):
+        if t is None or t[0] == "outlet":
+            return None
+        return tid[t[1]] if t[0] == "trunk" else main_id.get(t[1])
+
+    carriers = [Carrier(main_id[f], "main", ids[f], lay.mains[f], target(trunk.main_to[f]),
+                        f"O{trunk.main_outlet[f]}") for f in main_id]
+    carriers += [Carrier(tid[k], "trunk", "", g, target(trunk.to[k]), f"O{trunk.outlet[k]}")
+                 for k, g in enumerate(trunk.lines)]
+    carriers += [Carrier(f"{ids[f]}-S{k}", "submain", ids[f], g,
+                         main_id[f] if t[0] == "main" else f"{ids[f]}-S{t[1]}")
+                 for k, (g, f, t) in enumerate(zip(sub.lines, sub.field_of, sub.to))]
+    runs = []
+    for k, (g, f) in enumerate(zip(lay.laterals, lay.lateral_field)):
+        if lay.mains[f] is None:
+            continue
+        c = shapely.get_coordinates(g)
+        m = lay.mains[f]
+        near = int(np.argmin(shapely.distance(shapely.points(c), m)))
+        j = np.asarray(m.interpolate(m.project(shapely.Point(c[near]))).coords[0])
+        runs.append(LateralRun(f"L{k}", ids[f], shapely.LineString([c[1 - near], j]),
+                               float(g.length), lay.spacing, main_id[f]))
+    return design_network(runs, carriers, opts, surface=surface), len(runs), len(carriers)
+
+
+def main():
+    ap = argparse.ArgumentParser()
+    ap.add_argument("--sizes", type=int, nargs="+", default=[500, 1000, 2000])
+    ap.add_argument("--write", action="store_true")
+    args = ap.parse_args()
+    opts = PipeOptions(coefficient=0.0127, series="inch", max_depth=2.5)
+    rows = []
+    for n in args.sizes:
+        fields = irregular_fields(n)
+        lay = layout_fields(fields, LayoutOptions(spacing=18.0, setback=6.0))
+        cen = shapely.get_coordinates(shapely.centroid(fields))
+        outlets = np.array([cen[i:i + 100].min(axis=0) - 50.0 for i in range(0, n, 100)])
+        xy, z = survey_for(fields)
+        load = os.getloadavg()[0]
+        t0 = time.process_time()
+        w0 = time.perf_counter()
+        surface = PointSurface(xy, z)
+        d, n_runs, n_car = build_and_design(fields, lay, outlets, surface, opts)
+        cpu = time.process_time() - t0
+        wall = time.perf_counter() - w0
+        rows.append((n, n_runs, n_car, len(d.reaches), cpu, wall, load,
+                     d.totals["outlets"]))
+        print(f"{n} fields: {cpu:.2f} s CPU, {wall:.2f} s wall (load {load:.1f})",
+              flush=True)
+    base = rows[0]
+    lines = [
+        "## Drainage network: routing, vertical design and sizing",
+        "",
+        f"Measured {time.strftime('%Y-%m-%d')} on {platform.machine()}, {os.cpu_count()} "
+        f"cores shared with other work, Python {platform.python_version()}, shapely "
+        f"{shapely.__version__} (`python benchmarks/bench_network.py --write`). Invented "
+        "irregular fields of 5-80 ha at 18 m spacing (layout not timed), one outlet per "
+        "100 fields, survey points through scipy's LinearNDInterpolator.",
+        "",
+        "| fields | lateral runs | carriers | reaches | outlets | CPU | wall | load avg "
+        "| CPU / (n log n), relative |",
+        "| --- | --- | --- | --- | --- | --- | --- | --- | --- |",
+    ]
+    for n, nr, nc, nre, cpu, wall, load, no in rows:
+        rel = (cpu / (n * np.log(n))) / (base[4] / (base[0] * np.log(base[0])))
+        lines.append(f"| {n:,} | {nr:,} | {nc:,} | {nre:,} | {no} | {cpu:.1f} s | "
+                     f"{wall:.1f} s | {load:.1f} | {rel:.2f} |")
+    lines += ["", "Target: growth no faster than n log n (last column near or below 1)."]
+    text = "\n".join(lines)
+    print(text)
+    if args.write:
+        from bench_spacing import _write_section
+
+        _write_section(text, "## Drainage network")
+
+
+if __name__ == "__main__":
+    main()
