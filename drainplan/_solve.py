@@ -304,30 +304,45 @@ def newton_block(func, x, lo, hi, args, *, xtol, rtol, maxiter, prev=None):
     if lo is not None:
         with np.errstate(invalid="ignore"):
             x = np.minimum(np.maximum(x, lo), hi)
+    else:
+        x = np.array(x, dtype=float)             # updated in place below
     idx = None                       # all cases, until some stop
     if prev is None:
         prev = 0.0                   # the order-based stop needs two steps
     tol = xtol + (rtol * float(np.nanmax(np.abs(x), initial=0.0)) if rtol else 0.0)
+    c = 0.25 * tol
     it = 0
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         while it < maxiter:
             it += 1
             out = func(x, *args)
             f, f1 = out[0], out[1]
-            # predicted error of the new point below tol / 4, by the method's order
-            # with the constant from the scale of x and from the last two steps
+            # the stop: predicted error of the new point below tol / 4, by the
+            # method's order, with the constant from the scale of x and from the
+            # last two steps
             if len(out) > 2:
-                step = f / (f1 - 0.5 * f * out[2] / f1)                # Halley
+                den = np.multiply(f, out[2])
+                den /= f1
+                den *= -0.5
+                den += f1
+                step = np.divide(f, den)              # Halley: f / (f1 - f f2 / (2 f1))
                 a = np.abs(step)
-                a3 = a * a * a
-                quick = (a3 <= (0.25 * tol) * (x * x)) & (a3 * a <= (0.25 * tol) * prev ** 3)
+                p = np.multiply(a, a)
+                p *= a                                # a^3
+                quick = p <= c * (x * x)
+                p *= a                                # a^4
+                quick &= p <= c * prev ** 3
             else:
-                step = f / f1                                           # Newton
+                step = np.divide(f, f1)               # Newton: f / f1
                 a = np.abs(step)
-                a2 = a * a
-                quick = (a2 <= (0.25 * tol) * np.abs(x)) & (a2 * a <= (0.25 * tol) * prev ** 2)
-            x = x - step
-            stop = (a <= tol) | (quick & (a <= 0.25 * prev))
+                p = np.multiply(a, a)
+                quick = p <= c * np.abs(x)
+                p *= a
+                quick &= p <= c * prev ** 2
+            x -= step
+            quick &= a <= 0.25 * prev
+            quick |= a <= tol
+            stop = quick
             if stop.any():
                 if idx is None:
                     root[stop] = x[stop]

@@ -115,12 +115,12 @@ _MS = dict(unit="m/s")
 #: library, the project-file keys and (with dashes) the CLI options.
 QUANTITIES = {
     # soil
-    "k": Range("hydraulic conductivity", lo=1e-5, hi=1000, **_MD),
-    "k_above": Range("conductivity above drain level", lo=1e-5, hi=1000, **_MD),
-    "k_below": Range("conductivity below drain level", lo=1e-5, hi=1000, **_MD),
-    "k_vertical": Range("vertical conductivity", lo=1e-5, hi=1000, **_MD),
+    "k": Range("hydraulic conductivity", lo=1e-7, hi=1000, **_MD),
+    "k_above": Range("conductivity above drain level", lo=1e-7, hi=1000, **_MD),
+    "k_below": Range("conductivity below drain level", lo=1e-7, hi=1000, **_MD),
+    "k_vertical": Range("vertical conductivity", lo=1e-7, hi=1000, **_MD),
     "interface_depth": Range("depth of the layer interface", lo=0, hi=100, **_M),
-    "barrier_depth": Range("depth to the barrier", lo=0, lo_open=True, hi=1000, **_M),
+    "barrier_depth": Range("depth to the barrier", lo=0.1, hi=1000, **_M),
     "drainable_porosity": Range("drainable porosity", lo=0.001, hi=0.6),
     "layer_thickness": Range("layer thickness", lo=0, lo_open=True, hi=1000, **_M),
     # criteria
@@ -130,7 +130,7 @@ QUANTITIES = {
     "final_depth": Range("final water-table depth", lo=0, lo_open=True, hi=10, **_M),
     "days": Range("drawdown time", unit="d", lo=0.01, hi=365),
     # drains
-    "drain_depth": Range("drain depth", lo=0, lo_open=True, hi=10, **_M),
+    "drain_depth": Range("drain depth", lo=0.1, hi=10, **_M),
     "drain_radius": Range("drain radius", lo=0.001, hi=1, **_M),
     "spacing_increment": Range("spacing increment", lo=0.01, hi=50, **_M),
     # layout
@@ -144,12 +144,12 @@ QUANTITIES = {
     # pipes
     "coefficient": Range("drainage coefficient", lo=1e-4, hi=1, **_MD),
     "capacity_factor": Range("capacity factor", lo=0.1, hi=1),
-    "main_depth": Range("main depth", lo=0, lo_open=True, hi=10, **_M),
+    "main_depth": Range("main depth", lo=0.1, hi=10, **_M),
     "min_grade": Range("minimum grade", lo=1e-5, hi=1, hi_open=True, **_PCT),
     "max_grade": Range("maximum grade", lo=1e-5, hi=1, **_PCT),
     "assumed_grade": Range("assumed grade", lo=1e-5, hi=1, hi_open=True, **_PCT),
     "min_cover": Range("minimum cover", lo=0, hi=10, **_M),
-    "max_depth": Range("maximum trench depth", lo=0, lo_open=True, hi=10, **_M),
+    "max_depth": Range("maximum trench depth", lo=0.1, hi=10, **_M),
     "min_velocity": Range("minimum velocity", lo=0.01, hi=10, **_MS),
     "max_velocity": Range("maximum velocity", lo=0.01, hi=10, **_MS),
     "ditch_water_level": Range("ditch water level (elevation)", lo=-1000, hi=9000, **_M),

@@ -44,7 +44,7 @@ from .errors import ConvergenceWarning, InputError
 from .units import parse_quantity, show
 
 __all__ = ["Proposal", "CheckResult", "SPACING_CRITERIA", "read_proposal", "check_proposal",
-           "confidence_criteria", "EDGE_TREATMENT", "PROPOSAL_KEYS"]
+           "confidence_criteria", "season_criterion", "EDGE_TREATMENT", "PROPOSAL_KEYS"]
 
 #: Keys of a ``[proposal]`` section: kind of quantity.
 PROPOSAL_KEYS = {"name": "text", "lateral_spacing": "length", "depth": "length",
@@ -165,6 +165,48 @@ def confidence_criteria(k_cv, confidence):
             c.source + "; K at confidence K50 exp(-z sigma), lognormal K (method notes "
             "14.5, exact when only K varies)"))
     return out
+
+
+def season_criterion(weather, target, *, season=None, basis="mean", season_text="all"):
+    """The season-simulation criterion: SEW30 (cm d per season) within ``target``.
+
+    The widest spacing meeting it at a drain depth comes from simulating the
+    project's site over the daily ``weather`` record (non-linear Boussinesq flow
+    between drains with the equivalent depth; :mod:`drainplan.simulation_plan`),
+    refined to 0.1 m. ``season`` is a parsed growing season (None: the whole year).
+    """
+    from .design import _soil_at
+    from .simulation_plan import SimulationSite, widest_spacing_for_target
+
+    if not (math.isfinite(target) and target >= 0):
+        raise InputError("SEW30 target must be 0 cm·d or more", param="target_sew30")
+    grid = np.geomspace(3.0, 200.0, 14)
+
+    def allowed(p, z, r):
+        soil = _soil_at(p, z)
+        mu = soil.get("drainable_porosity")
+        if mu is None:
+            raise InputError(f"{p.path.name}: the season simulation needs "
+                             "soil.drainable_porosity", param="project")
+        site = SimulationSite(drain_depth=z, barrier_depth=soil["barrier_depth"],
+                              drain_radius=r, k_below=soil.get("k", soil.get("k_below")),
+                              k_above=soil.get("k", soil.get("k_above")),
+                              drainable_porosity=mu,
+                              equivalent_depth_method=p.drains.get("equivalent_depth",
+                                                                   "series"))
+        site.check()
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", ConvergenceWarning)
+            res = widest_spacing_for_target(site, weather, grid, target=target, basis=basis,
+                                            season=season, refine=3)
+        return float("nan") if res["spacing_m"] is None else float(res["spacing_m"])
+
+    return SpacingCriterion(
+        "season", lambda p: True, allowed,
+        lambda p, u: (f"season: SEW30 at most {target:g} cm·d per season ({basis}, season "
+                      f"{season_text}) over the weather record, simulated"),
+        "non-linear Boussinesq simulation between drains with Hooghoudt's equivalent depth; "
+        "SEW30 after Sieben (1964)")
 
 
 # --------------------------------------------------------------------------- proposal
@@ -539,7 +581,7 @@ def _layout_lines(p, prop, work_crs):
 
 
 def check_proposal(project, proposal, *, units=None, progress=None, k_cv=None,
-                   confidence=None):
+                   confidence=None, extra_criteria=()):
     """Check ``proposal`` against every criterion of ``project``.
 
     Parameters
@@ -553,6 +595,8 @@ def check_proposal(project, proposal, *, units=None, progress=None, k_cv=None,
         Coefficient of variation of K [-] and a confidence level (default 0.8):
         adds each spacing criterion met with that confidence
         (:func:`confidence_criteria`).
+    extra_criteria : sequence of SpacingCriterion
+        Further spacing criteria (e.g. :func:`season_criterion`).
 
     Returns
     -------
@@ -821,6 +865,7 @@ def check_proposal(project, proposal, *, units=None, progress=None, k_cv=None,
     elif confidence is not None:
         raise InputError("a confidence level needs the spread of K: give --k-cv too",
                          param="confidence")
+    crit_list += [c for c in extra_criteria if c.applies(p)]
     keys = np.round(depth, 4)
     allowed = {}
     for c in crit_list:

@@ -18,7 +18,7 @@ from .project import Project
 from .spacing import (METHODS, drain_spacing, glover_dumm_head, glover_dumm_profile,
                       hooghoudt_water_table)
 
-__all__ = ["DesignResult", "design", "REFERENCES"]
+__all__ = ["DesignResult", "design", "REFERENCES", "check_sheet_text"]
 
 #: Full citations printed on the design sheet, by method.
 REFERENCES = {
@@ -48,6 +48,13 @@ REFERENCES = {
         "Dumm, L.D. (1954). Drain spacing formula. Agricultural Engineering 35: 726-730.",
         "Dumm, L.D. (1964). Transient-flow concept in subsurface drainage: its validity and "
         "use. Transactions of the ASAE 7(2): 142-146.",
+    ],
+    "field tests": [
+        "van Beers, W.F.J. (1983). The auger-hole method: a field measurement of the "
+        "hydraulic conductivity of soil below the water table. ILRI Bulletin 1, Wageningen.",
+        "Oosterbaan, R.J. and Nijland, H.J. (1994). Determining the saturated hydraulic "
+        "conductivity. In: Drainage Principles and Applications, ILRI Publication 16, 2nd "
+        "ed., ch. 12.",
     ],
     "pipes": [
         "USDA-NRCS (2001). National Engineering Handbook, part 650, Engineering Field "
@@ -104,6 +111,21 @@ def _spacing(p, method, depth, k_scale=1.0, quiet=True, over=None):
 
     ``over`` replaces inputs for a sensitivity case: ``drainable_porosity``,
     ``barrier_depth`` or ``radius`` (SI)."""
+    args = _spacing_args(p, method, depth, k_scale, over)
+    if args is None:
+        return None
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", ConvergenceWarning)
+        try:
+            return drain_spacing(**args)
+        except InputError as exc:
+            if quiet:
+                return exc
+            raise
+
+
+def _spacing_args(p, method, depth, k_scale=1.0, over=None):
+    """Keyword arguments of drain_spacing for the project at one depth (None: n/a)."""
     c, d = p.criteria, p.drains
     over = over or {}
     s = _soil_at(p, depth)
@@ -136,14 +158,7 @@ def _spacing(p, method, depth, k_scale=1.0, quiet=True, over=None):
                 args["k_vertical"] = s["k_vertical"] * k_scale
         if method == "kirkham" and "k" not in args:
             return None
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore", ConvergenceWarning)
-        try:
-            return drain_spacing(**args)
-        except InputError as exc:
-            if quiet:
-                return exc
-            raise
+    return args
 
 
 def _f(v, nd=3):
@@ -168,7 +183,7 @@ def design(project, *, progress=None):
     """
     say = progress or (lambda text: None)
     p = project
-    text_warnings = _check_sheet_text(p)
+    text_warnings = check_sheet_text(p)
     c, d = p.criteria, p.drains
     steady_method = c.get("method", "hooghoudt")
     if steady_method == "glover-dumm":
@@ -217,6 +232,16 @@ def design(project, *, progress=None):
     governing = ("steady" if has_steady and pick.get("steady_spacing_m") == raw_spacing
                  else "falling")
     chosen_method = steady_method if governing == "steady" else "glover-dumm"
+    # spacing under uncertainty (spread of the field tests, soil.k_cv, ranges);
+    # criteria.confidence makes the design spacing the one met with that probability
+    deterministic_spacing = raw_spacing
+    unc = _uncertainty(p, depth, steady_method if has_steady else None, has_falling)
+    if unc is not None and "confidence" in c:
+        if not math.isfinite(unc.spacing_at_confidence):
+            raise DrainplanError(f"no spacing meets the criteria with {c['confidence']:.0%} "
+                                 "confidence at this drain depth")
+        raw_spacing = unc.spacing_at_confidence
+        spacing = max(inc, math.floor(raw_spacing / inc + 1e-9) * inc)
 
     # methods side by side and sensitivity at the chosen depth
     comparison = []
@@ -261,7 +286,7 @@ def design(project, *, progress=None):
         exclude_setback=fl.get("exclusion_setback", 15.0), outlet=fl.get("outlet"),
         repair=lo.get("repair", False), survey_path=p.pipes.get("survey"),
         survey_crs=p.pipes.get("survey_crs"),
-        survey_z_unit=p.pipes.get("survey_z_unit", "m")))
+        survey_z_unit=p.pipes.get("survey_z_unit", "m"), dem_path=p.pipes.get("dem")))
 
     # pipes
     say("pipes")
@@ -301,6 +326,7 @@ def design(project, *, progress=None):
                                                                   falling)
     summary["design"]["notes"] += extra_notes
     summary["design"]["warnings"] = text_warnings + summary["design"]["warnings"]
+    _add_uncertainty(summary, figures, p, unc, spacing, deterministic_spacing)
     if "weather" in p.simulation:
         say("season simulation")
         summary["simulation"], figures["simulation"] = _season_simulation(
@@ -374,7 +400,7 @@ def _season_simulation(p, depth, spacing, raw_spacing, coef, lp):
 US_SPACING_INCREMENT = 5 * 0.3048
 
 
-def _check_sheet_text(p):
+def check_sheet_text(p):
     """Project text that goes on the sheet: control characters stripped (warned), and
     right-to-left text or characters the sheet font lacks refused before any work."""
     from ._text import check_text
@@ -650,12 +676,8 @@ def _summary(p, table, depth, spacing, raw_spacing, governing, method, compariso
         target[row["size"]] = target.get(row["size"], 0.0) + row["length_m"]
     outlets = _outlets(lp)
     inputs = {
-        "soil": {k: (v if isinstance(v, str) else
-                     [{kk: (vv if isinstance(vv, str) else _f(vv, 6)) for kk, vv in ly.items()}
-                      for ly in v] if isinstance(v, list) else _f(v, 6))
-                 for k, v in p.soil.items()},
-        "soil_at_drain_depth": {k: (v if isinstance(v, str) else _f(v, 6)) for k, v in
-                                _soil_at(p, depth).items()},
+        "soil": {k: _plain(v) for k, v in p.soil.items()},
+        "soil_at_drain_depth": {k: _plain(v) for k, v in _soil_at(p, depth).items()},
         "criteria": {k: (v if isinstance(v, str) else _f(v, 6)) for k, v in p.criteria.items()},
         "drains": {"depths_m": [_f(z, 4) for z in p.drains["depth"]],
                    "radius_m": _f(p.drains["radius"], 4),
@@ -716,3 +738,91 @@ def _summary(p, table, depth, spacing, raw_spacing, governing, method, compariso
                        for ref in REFERENCES.get(key, [])],
         "work_crs": lp.work_crs.to_string(),
     }
+
+
+def _plain(v):
+    """A soil input as JSON-ready values (numbers rounded to 6 digits)."""
+    if v is None or isinstance(v, (str, bool, int)):
+        return v
+    if isinstance(v, dict):
+        return {k: _plain(x) for k, x in v.items()}
+    if isinstance(v, (list, tuple)):
+        return [_plain(x) for x in v]
+    return _f(v, 6)
+
+
+#: Samples and seed of the design's uncertainty (fixed: same project, same sheet).
+UNCERTAINTY_SAMPLES, UNCERTAINTY_SEED = 20000, 0
+
+
+def _uncertainty(p, depth, steady_method, has_falling):
+    """Spacing under uncertainty at the chosen depth; None when nothing varies."""
+    from .uncertainty import Triangular, Uniform, spacing_uncertainty
+
+    s, c = p.soil, p.criteria
+    sigma = s.get("k_log_sd") or 0.0
+    por, bar = s.get("drainable_porosity_range"), s.get("barrier_depth_range")
+    if not sigma and por is None and bar is None:
+        return None
+    if por is not None and not has_falling:
+        raise InputError(f"{p.path.name}: soil.drainable_porosity_range needs a falling "
+                         "water-table criterion (it does not enter a steady one)",
+                         param="project")
+    sites = [a for a in ((_spacing_args(p, steady_method, depth) if steady_method else None),
+                         (_spacing_args(p, "glover-dumm", depth) if has_falling else None))
+             if a is not None]
+    if not sites:
+        return None
+
+    def dist(v):
+        return None if v is None else Uniform(*v) if len(v) == 2 else Triangular(*v)
+
+    try:
+        return spacing_uncertainty(sites, k_log_sd=sigma, drainable_porosity=dist(por),
+                                   barrier_depth=dist(bar), n_samples=UNCERTAINTY_SAMPLES,
+                                   seed=UNCERTAINTY_SEED,
+                                   confidence=c.get("confidence", 0.8))
+    except InputError as exc:
+        raise InputError(f"{p.path.name}: uncertainty: {exc}", param="project") from None
+
+
+def _add_uncertainty(summary, figures, p, unc, spacing, deterministic_spacing):
+    """Field tests and spacing-under-uncertainty entries of the summary and figures."""
+    ts = p.soil.get("tests_summary")
+    if ts is not None:
+        summary["references"] += REFERENCES["field tests"]
+        summary["field_tests"] = _plain({
+            "tests": p.soil["tests"], "design_k_m_per_d": ts["design_k"],
+            "geometric_mean_m_per_d": ts["geometric_mean"], "log_sd": ts["log_sd"],
+            "cv": ts["cv"], "n": ts["n"], "min_m_per_d": ts["min"], "max_m_per_d": ts["max"],
+            "spread_factor": ts["spread_factor"], "percentile": ts["percentile"],
+            "used_for": ts["used_for"]})
+    if unc is None:
+        return
+    c = p.criteria
+    at_conf = "confidence" in c
+    summary["uncertainty"] = _plain({
+        "confidence": unc.confidence,
+        "design_spacing_at_confidence": at_conf,
+        "spacing_at_confidence_m": unc.spacing_at_confidence,
+        "median_spacing_m": unc.median_spacing,
+        "exact_spacing_at_confidence_m": unc.exact_spacing_at_confidence,
+        "deterministic_spacing_m": deterministic_spacing,
+        "probability_design_spacing_meets": float(unc.probability_at(spacing)),
+        "varied": [{"input": a, "distribution": b} for a, b in unc.varied],
+        "n_samples": unc.n_samples, "seed": unc.seed,
+        "probability_curve": [{"spacing_m": float(L), "probability": float(q)}
+                              for L, q in zip(unc.spacings, unc.probability)],
+        "notes": list(unc.notes),
+    })
+    if at_conf:
+        summary["design"]["notes"].append(
+            f"design spacing is the spacing met with {unc.confidence:.0%} probability "
+            f"({', '.join(a for a, _ in unc.varied)} varied, {unc.n_samples:,} samples); "
+            f"with the inputs at their central values it would be "
+            f"{deterministic_spacing:.1f} m")
+    figures["probability"] = {"spacings": unc.spacings, "probability": unc.probability,
+                              "confidence": unc.confidence,
+                              "spacing_at_confidence": unc.spacing_at_confidence,
+                              "design_spacing": spacing,
+                              "varied": [a for a, _ in unc.varied]}

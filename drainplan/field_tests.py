@@ -179,3 +179,108 @@ def summarise_tests(tests, *, percentile=None):
     rows = [reduce_test(t) for t in tests]
     summary = k_summary([r["k_m_per_d"] for r in rows], percentile=percentile)
     return {"tests": rows, **summary}
+
+
+# ---- project file: [[soil.tests]] and the spread of K
+
+_TEST_KEYS = {"kind": "choice", "place": "text", "hole_radius": "length",
+              "hole_depth": "length", "water_table_depth": "length",
+              "barrier_depth": "length", "readings": "readings", "readings_file": "path",
+              "k": "rate", "intermediate_barrier": "choice", "notes": "text"}
+
+
+def convert_tests(value, base, name="soil.tests"):
+    """``[[soil.tests]]`` tables -> one flat entry per test with its K (SI).
+
+    Each entry: ``place``, ``kind``, ``k`` [m/d], ``readings`` ("3 of 4" used, or
+    "–"), ``note`` (text). Readings may be given inline (``"0:1.40,40:1.34"`` or
+    ``[[0, 1.40], [40, 1.34]]``, seconds and metres) or in a CSV file.
+    """
+    import difflib
+
+    from .units import parse_quantity
+
+    if not isinstance(value, list) or not value or not all(isinstance(v, dict) for v in value):
+        raise InputError(f"{name} must be a list of [[soil.tests]] tables")
+    out = []
+    for i, entry in enumerate(value, start=1):
+        where = f"{name}[{i}]"
+        test = {}
+        for key, v in entry.items():
+            kind = _TEST_KEYS.get(key)
+            if kind is None:
+                close = difflib.get_close_matches(key, list(_TEST_KEYS), n=1, cutoff=0.5)
+                raise InputError(f"unknown key {where}.{key}"
+                                 + (f" (did you mean {close[0]!r}?)" if close else ""))
+            if kind in ("text", "choice"):
+                if not isinstance(v, str):
+                    raise InputError(f"{where}.{key} must be text, got {v!r}")
+                test[key] = v
+            elif kind == "path":
+                test[key] = str((Path(base) / v).resolve()) if isinstance(v, str) else None
+                if test[key] is None:
+                    raise InputError(f"{where}.{key} must be a file path in quotes")
+            elif kind == "readings":
+                if isinstance(v, str):
+                    t, z = parse_readings(v, name=f"{where}.readings")
+                elif isinstance(v, list) and all(isinstance(p, list) and len(p) == 2
+                                                 for p in v):
+                    try:
+                        t = np.array([float(p[0]) for p in v])
+                        z = np.array([float(p[1]) for p in v])
+                    except (TypeError, ValueError):
+                        raise InputError(f"{where}.readings must be [[seconds, metres], ...]"
+                                         ) from None
+                else:
+                    raise InputError(f"{where}.readings must be \"SECONDS:METRES,...\" or "
+                                     "[[seconds, metres], ...]")
+                test["times"], test["water_depths"] = t, z
+            else:
+                test[key] = parse_quantity(v, kind, name=f"{where}.{key}")
+        if "kind" not in test:
+            raise InputError(f"{where}.kind is required ({', '.join(TEST_KINDS)})")
+        if test["kind"] not in TEST_KINDS:
+            raise InputError(f"{where}.kind must be one of {', '.join(TEST_KINDS)}; got "
+                             f"{test['kind']!r}")
+        if "readings_file" in test:
+            if "times" in test:
+                raise InputError(f"{where}: give readings or readings_file, not both")
+            test["times"], test["water_depths"] = read_readings_csv(test.pop("readings_file"))
+        test.setdefault("place", f"test {i}")
+        r = reduce_test(test)
+        out.append({"place": r["place"], "kind": r["kind"], "k": r["k_m_per_d"],
+                    "readings": r["readings_used"] or "–", "note": "; ".join(r["notes"])})
+    return out
+
+
+def apply_tests(soil, criteria):
+    """Fill in what the tests give: the design K (when no K is given), the summary,
+    and the spread of K used for the uncertainty (``soil["k_log_sd"]``)."""
+    from .uncertainty import lognormal_log_sd
+
+    tests = soil.get("tests")
+    if tests:
+        summary = k_summary([t["k"] for t in tests], percentile=soil.get("tests_percentile"))
+        given = [k for k in ("k", "k_above", "k_below", "layers") if k in soil]
+        summary["used_for"] = ("the design K (soil.k)" if not given else
+                               "the spread of K only (K from "
+                               + " and ".join(f"soil.{g}" for g in given) + ")")
+        soil["tests_summary"] = summary
+        if not given:
+            soil["k"] = summary["design_k"]
+    elif "tests_percentile" in soil:
+        raise InputError("soil.tests_percentile needs [[soil.tests]]")
+    if "k_cv" in soil:
+        soil["k_log_sd"] = lognormal_log_sd(soil["k_cv"])
+    elif tests and len(tests) >= 2:
+        soil["k_log_sd"] = soil["tests_summary"]["log_sd"]
+    if "confidence" in criteria:
+        c = criteria["confidence"]
+        if not 0.5 <= c < 1:
+            raise InputError(f"criteria.confidence must be from 0.5 to below 1 (e.g. 0.8), "
+                             f"got {c:g}")
+        if not (soil.get("k_log_sd") or "drainable_porosity_range" in soil
+                or "barrier_depth_range" in soil):
+            raise InputError("criteria.confidence needs a spread: soil.k_cv, two or more "
+                             "[[soil.tests]] or a range (soil.drainable_porosity_range, "
+                             "soil.barrier_depth_range)")

@@ -46,6 +46,7 @@ class LayoutInputs:
     survey_path: str | None = None       # elevations: 'auto' runs laterals across the slope
     survey_crs: str | None = None
     survey_z_unit: str = "m"
+    dem_path: str | None = None          # a DEM instead of survey points
 
 
 @dataclass
@@ -183,7 +184,10 @@ def plan_layout(inp: LayoutInputs) -> LayoutPlan:
     slope_notes = []
     surface = None
     low_end = None
-    if inp.survey_path is not None:
+    if inp.survey_path and inp.dem_path:
+        raise InputError("give either a survey or a DEM, not both", param="survey")
+    elevations = bool(inp.survey_path or inp.dem_path)
+    if elevations:
         surface, planes = _field_planes(inp, geoms, ids, work_crs)
         if options.direction == "auto":
             bearings, slope_notes = _across_slope(planes, ids)
@@ -346,7 +350,7 @@ def plan_layout(inp: LayoutInputs) -> LayoutPlan:
         notes.append(f"trunk main of {len(net['trunk'].lines)} segment(s), "
                      f"{sum(g.length for g in net['trunk'].lines):.0f} m, joins the fields' "
                      f"mains to {len(net['outlets'])} outlet point(s) (layer 'trunk')")
-    if inp.survey_path is None and not len(net["outlets"]) and \
+    if not elevations and not len(net["outlets"]) and \
             inp.options.main_side == "auto" and inp.options.pattern == "parallel":
         from .geometry.layout import COMPASS
 
@@ -362,7 +366,7 @@ def plan_layout(inp: LayoutInputs) -> LayoutPlan:
         msg = f"field {ids[i]} got no laterals: {why}"
         notes.append(msg)
         reports.append(msg)
-    if inp.survey_path is None and inp.options.direction == "auto":
+    if not elevations and inp.options.direction == "auto":
         notes.append("lateral direction 'auto': long axis of each field's minimum rotated "
                      "rectangle")
     notes.append(f"layout computed in {work_crs.to_string()} (metres); bearings are grid "
@@ -412,12 +416,15 @@ def _field_planes(inp, geoms, ids, work_crs):
     """The survey surface and, per field, the plane (a, b) fitted to its ground."""
     import shapely
 
-    from .gisio import read_survey
-    from .terrain import PointSurface, check_coverage, fit_plane
+    from .gisio import read_dem, read_survey
+    from .terrain import PointSurface, RasterSurface, check_coverage, fit_plane
 
-    xy, z = read_survey(inp.survey_path, crs=inp.survey_crs or work_crs,
-                        z_unit=inp.survey_z_unit, work_crs=work_crs)
-    surface = PointSurface(xy, z)
+    if inp.dem_path:
+        surface = RasterSurface(*read_dem(inp.dem_path, work_crs))
+    else:
+        xy, z = read_survey(inp.survey_path, crs=inp.survey_crs or work_crs,
+                            z_unit=inp.survey_z_unit, work_crs=work_crs)
+        surface = PointSurface(xy, z)
     check_coverage(surface, geoms, ids)
     planes = [None] * len(geoms)
     for i, g in enumerate(geoms):

@@ -387,6 +387,11 @@ def design_figures(result, units=None):
         fig.subplots_adjust(left=0.09, right=0.98, bottom=0.17, top=0.9, wspace=0.12)
         falling_water_table(fd, axes=fig.subplots(1, 2), units=units)
         out["falling"] = _png(fig)
+    if "probability" in fd:          # spacing under uncertainty
+        fig = Figure(figsize=(8, 2.8))
+        fig.subplots_adjust(left=0.09, right=0.98, bottom=0.17, top=0.9)
+        probability_curve(fd["probability"], ax=fig.add_subplot(), units=units)
+        out["probability"] = _png(fig)
     if "simulation" in fd:
         fig = Figure(figsize=(8, 6.4))
         season_simulation_panels(fd["simulation"], fig=fig, units=units)
@@ -569,3 +574,46 @@ def season_simulation_panels(data, *, fig=None, units="metric"):
                       for L, q in sorted(data["discharges"].items())}, ax=ax3, units=units,
                      coefficient=data.get("coefficient"), title="Daily drain discharge")
     return [ax1, ax2, ax3]
+
+
+def probability_curve(data, *, ax=None, units="metric"):
+    """Probability that a drain spacing meets the design criteria, against spacing.
+
+    Parameters
+    ----------
+    data : dict
+        ``spacings`` [m] and ``probability`` arrays, ``confidence``,
+        ``spacing_at_confidence`` [m], ``design_spacing`` [m], ``varied``
+        (names of the inputs that were sampled); as made by
+        :func:`drainplan.design.design` (``figures["probability"]``).
+    units : {"metric", "us"}
+    """
+    import matplotlib.pyplot as plt
+
+    from .units import display_unit, to_display
+
+    if ax is None:
+        _, ax = plt.subplots(figsize=(8, 3))
+    lu = display_unit("spacing", units)
+    x = to_display(np.asarray(data["spacings"], float), "spacing", units)
+    ax.plot(x, data["probability"], color="#2a6fb0", linewidth=1.6,
+            label="probability of meeting the criteria")
+    c, Lc = data["confidence"], data["spacing_at_confidence"]
+    if np.isfinite(Lc):
+        xc = float(to_display(Lc, "spacing", units))
+        ax.axhline(c, color="#888888", linestyle=":", linewidth=0.8)
+        ax.axvline(xc, color="#888888", linestyle=":", linewidth=0.8)
+        ax.annotate(f"{c * 100:.0f} %: {xc:.1f} {lu}", (xc, c), xytext=(6, 6),
+                    textcoords="offset points", fontsize=7)
+    xd = float(to_display(data["design_spacing"], "spacing", units))
+    pd = float(np.interp(xd, x, data["probability"]))
+    ax.plot([xd], [pd], marker="o", color="#c0392b", linestyle="none",
+            label=f"design spacing {xd:.1f} {lu}")
+    ax.set_ylim(-0.02, 1.02)
+    ax.set_xlabel(f"drain spacing ({lu})")
+    ax.set_ylabel("probability")
+    ax.grid(True, color="#dddddd", linewidth=0.5)
+    ax.legend(fontsize=7, frameon=False, loc="upper right")
+    ax.set_title("Probability that a spacing meets the criteria (varied: "
+                 + ", ".join(data["varied"]) + ")", fontsize=9)
+    return ax

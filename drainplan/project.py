@@ -40,14 +40,17 @@ SCHEMA = {
     "soil": {"k": ("rate", False), "k_above": ("rate", False), "k_below": ("rate", False),
              "interface_depth": ("length", False), "k_vertical": ("rate", False),
              "barrier_depth": ("length", False), "drainable_porosity": ("fraction", False),
-             "layers": ("layers", False), "source": ("text", False)},
+             "layers": ("layers", False), "source": ("text", False),
+             "tests": ("tests", False), "tests_percentile": ("number", False),
+             "k_cv": ("number", False), "drainable_porosity_range": ("range:fraction", False),
+             "barrier_depth_range": ("range:length", False)},
     "criteria": {"method": ("choice:hooghoudt|ernst|kirkham|glover-dumm", False),
                  "recharge": ("rate", False), "water_table_depth": ("length", False),
                  "initial_depth": ("length", False), "final_depth": ("length", False),
                  "days": ("time", False),
                  "initial_shape": ("choice:parabolic|flat", False),
                  "flow_depth": ("choice:equivalent|equivalent-plus-half-head", False),
-                 "source": ("text", False)},
+                 "confidence": ("number", False), "source": ("text", False)},
     "drains": {"depth": ("depths", True), "choose_depth": ("choice:deepest|shallowest", False),
                "radius": ("radius", True), "spacing_increment": ("length", False),
                "equivalent_depth": ("choice:series|moody", False)},
@@ -220,6 +223,15 @@ def _convert(section, key, kind, value, base):
                     raise InputError(f"{name}[{i}].{req} is required")
             layers.append(entry)
         return layers
+    if kind == "tests":
+        from .field_tests import convert_tests
+
+        return convert_tests(value, base, name)
+    if kind.startswith("range:"):
+        if not isinstance(value, list) or len(value) not in (2, 3):
+            raise InputError(f"{name} must be [low, high] or [low, mode, high]")
+        return [_convert(section, f"{key}[{i}]", kind.split(":", 1)[1], v, base)
+                for i, v in enumerate(value, start=1)]
     if kind == "point":
         if isinstance(value, list) and len(value) == 2 and all(
                 isinstance(v, (int, float)) and not isinstance(v, bool) for v in value):
@@ -283,6 +295,12 @@ def load_project(path, *, check_files=True):
                 raise InputError(f"{p.name}: {section}.{key} is required", param="project")
         out[section] = values
     soil = out["soil"]
+    try:
+        from .field_tests import apply_tests
+
+        apply_tests(soil, out["criteria"])
+    except InputError as exc:
+        raise InputError(f"{p.name}: {exc}", param="project") from None
     if "layers" in soil:
         clash = [k for k in ("k", "k_above", "k_below") if k in soil]
         if clash:
@@ -297,7 +315,8 @@ def load_project(path, *, check_files=True):
             soil["barrier_depth"] = sum(ly["thickness"] for ly in soil["layers"])
     elif "k" not in soil and not ("k_above" in soil and "k_below" in soil):
         raise InputError(f"{p.name}: soil.k (one layer), soil.k_above and soil.k_below (two "
-                         "layers) or [[soil.layers]] is required", param="project")
+                         "layers), [[soil.layers]] or [[soil.tests]] is required",
+                         param="project")
     if "barrier_depth" not in soil:
         raise InputError(f"{p.name}: soil.barrier_depth is required", param="project")
     crit = out["criteria"]

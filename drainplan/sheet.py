@@ -24,7 +24,7 @@ CRITERION_NAMES = {"steady": "steady state (design recharge)",
                    "falling": "falling water table (drawdown in the time allowed)"}
 #: Rows of the pipe schedule printed on the sheet; a longer schedule prints the mains
 #: and refers to pipe_schedule.csv for the laterals (the CSV always has every reach).
-MAX_SCHEDULE_ROWS = 250
+MAX_SCHEDULE_ROWS = 400
 #: Rows per reportlab table: page-sized tables keep long schedules fast to lay out.
 TABLE_CHUNK = 45
 
@@ -71,6 +71,10 @@ def _styles():
                                 spaceAfter=6),
         "h": ParagraphStyle("h", parent=base, fontName=_BOLD, fontSize=11.5, leading=15,
                             spaceBefore=8, spaceAfter=4, keepWithNext=1),
+        # a heading followed by a long, splitting table: a CondPageBreak before it keeps it
+        # off the foot of a page instead of pushing the whole table to the next page
+        "hl": ParagraphStyle("hl", parent=base, fontName=_BOLD, fontSize=11.5, leading=15,
+                             spaceBefore=8, spaceAfter=4),
         "h2": ParagraphStyle("h2", parent=base, fontName=_BOLD, keepWithNext=1,
                              spaceBefore=4),
         "warn": ParagraphStyle("warn", parent=base, fontSize=8.5, leading=11,
@@ -445,9 +449,14 @@ def build_sheet(summary, figures_png, path, *, units="metric", paper="A4", logo=
                      f"{f.rate(fl['mean_m_per_d'])} on average over the time allowed"])
     story.append(_table([[a, P(b, "cell")] for a, b in rows], widths=[62 * mm, width - 62 * mm],
                         header=False))
-    if d.get("warnings"):
+    # names read from the GIS files that the sheet font cannot show: said up front
+    name_warnings = []
+    for fr in s["fields"]:
+        sheet_text(fr["field_id"], "field id", name_warnings)
+    warnings = list(d.get("warnings") or []) + list(dict.fromkeys(name_warnings))
+    if warnings:
         story.append(P("Warnings", "h"))
-        for w in d["warnings"]:
+        for w in warnings:
             story.append(P("⚠ " + _esc(w), "warn"))
     story.append(P("Key quantities", "h"))
     # pipe quantities straight from the take-off, so page 1 and the take-off agree
@@ -581,9 +590,11 @@ def build_sheet(summary, figures_png, path, *, units="metric", paper="A4", logo=
     for ref in s["references"]:
         story.append(P(_esc(ref), "small"))
 
+    story += _uncertainty_section(s, figures_png, P, units, width)
+
     # ---- fields, pipes
-    story.append(CondPageBreak(90 * mm))
-    story.append(P("Fields", "h"))
+    story.append(CondPageBreak(45 * mm))
+    story.append(P("Fields", "hl"))
     frows = [["Field", "Area", "Spacing", "Laterals", "Lateral length", "Main length",
               "Drained area", "Outlet flow"]]
     for fr in s["fields"]:
@@ -593,13 +604,14 @@ def build_sheet(summary, figures_png, path, *, units="metric", paper="A4", logo=
                       f.length(fr.get("main_length_m"), 0), f.area(fr.get("drained_area_ha")),
                       f.flow(fr.get("outlet_flow_l_s"))])
     story.extend(_long_tables(frows, font_size=7.5))
-    story.append(P("Quantity take-off", "h"))
+    story.append(CondPageBreak(45 * mm))
+    story.append(P("Quantity take-off", "hl"))
     trows = [["Item", "Material", "Size", "Quantity"]]
     for t in s["takeoff"]:
         qty = f.length(t["length_m"], 1) if t["length_m"] else f"{t['count']} pcs"
         kind = t["kind"] + (" (perforated)" if t.get("perforated") else "")
         trows.append([kind, t["material"] or "–", t["size"], qty])
-    story.append(_table(trows))
+    story.extend(_long_tables(trows, chunk=25))
     story.append(P("Whole job; per-field quantities are in summary.json. Perforated pipe is "
                    "the laterals only; connectors, sub-mains, mains, trunk and the outlet "
                    "pipe are solid.", "small"))
@@ -635,7 +647,7 @@ def build_sheet(summary, figures_png, path, *, units="metric", paper="A4", logo=
 
     # ---- appendix: pipe schedule
     story.append(PageBreak())
-    story.append(P("Appendix — Pipe schedule", "h"))
+    story.append(P("Appendix — Pipe schedule", "hl"))
     qu, vu = f.unit("flow"), f.unit("velocity")
     reaches = s["reaches"]
     if len(reaches) > MAX_SCHEDULE_ROWS:
@@ -832,5 +844,77 @@ def _esc_keep(text):
     return text
 
 
+def _uncertainty_section(s, figures_png, P, units, width):
+    """Field tests (each test's K, design K and spread) and the spacing under uncertainty
+    (probability curve, inputs varied, spacing at the chosen confidence)."""
+    from reportlab.lib.units import mm
+    from reportlab.platypus import CondPageBreak
+
+    from .units import show
+
+    ft, u = s.get("field_tests"), s.get("uncertainty")
+    if ft is None and u is None:
+        return []
+
+    def cond(v):
+        return show(v, "conductivity", units, 3)
+
+    def sp(v):
+        return show(v, "spacing", units, 1)
+
+    out = [CondPageBreak(70 * mm), P("Field tests and how sure the spacing is", "h")]
+    if ft is not None:
+        rows = [["Place", "Test", "K", "Readings used"]]
+        for t in ft["tests"]:
+            rows.append([P(_esc(t["place"]), "cell"), t["kind"], cond(t["k"]), t["readings"]])
+        out.append(_table(rows, widths=[70 * mm, 35 * mm, 30 * mm, 30 * mm]))
+        how = ("the geometric mean" if ft["percentile"] is None
+               else f"the {ft['percentile']:g} % point of the fitted lognormal; geometric "
+                    f"mean {cond(ft['geometric_mean_m_per_d'])}")
+        out.append(P(f"Design K from {ft['n']} test(s): <b>{cond(ft['design_k_m_per_d'])}</b> "
+                     f"({how}). Spread: "
+                     f"{cond(ft['min_m_per_d'])} to {cond(ft['max_m_per_d'])} "
+                     f"(factor {ft['spread_factor']:.1f}), standard deviation of ln K "
+                     f"{ft['log_sd']:.2f} (cv {ft['cv']:.2f}). Used for "
+                     f"{_esc(ft['used_for'])}. Auger-hole tests reduced by Ernst's formula, "
+                     "readings used while the rise stayed under a quarter of the first "
+                     "drawdown; inverse auger-hole tests by Porchet's formula.", "small"))
+        for t in ft["tests"]:
+            if t.get("note"):
+                out.append(P(f"• {_esc(t['place'])}: {_esc(t['note'])}", "small"))
+    if u is not None:
+        if "probability" in figures_png:
+            out.append(_image(figures_png["probability"], width))
+        c = u["confidence"]
+        pc = f"{c * 100:.0f} %"
+        rows = [(f"Inputs varied ({u['n_samples']:,} samples, seed {u['seed']})",
+                 "; ".join(f"{v['input']}: {v['distribution']}" for v in u["varied"])),
+                (f"Spacing met with {pc} probability", sp(u["spacing_at_confidence_m"])
+                 + (f" (from the K percentile: {sp(u['exact_spacing_at_confidence_m'])})"
+                    if u.get("exact_spacing_at_confidence_m") is not None else "")),
+                ("Spacing met with 50 % probability", sp(u["median_spacing_m"])),
+                ("Probability that the design spacing meets the criteria",
+                 f"{u['probability_design_spacing_meets'] * 100:.0f} %"),
+                ("Design spacing", f"the spacing met with {pc} probability"
+                 if u["design_spacing_at_confidence"] else
+                 "from the central values (criteria.confidence would design for a chosen "
+                 "probability)")]
+        rows = [[P(_esc(a), "cell"), P(_esc(b), "cell")] for a, b in rows]
+        out.append(_table(rows, widths=[70 * mm, width - 70 * mm], header=False))
+        out.append(P("K is taken as lognormal about the K in use (its median). With K alone "
+                     "varying, the spacing met with a given probability is the spacing at "
+                     "the matching K percentile; when several inputs vary together no single "
+                     "percentile gives it, so the joint samples are counted. Samples without "
+                     "a workable spacing count as failing.", "small"))
+        for n in u.get("notes", []):
+            out.append(P("• " + _esc(n), "small"))
+    return out
+
+
 def _esc(text):
-    return (str(text).replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;"))
+    """Text for a reportlab paragraph: markup characters escaped, and characters the sheet
+    font cannot show replaced by '?' (never an empty box; see drainplan._text)."""
+    from ._text import sheet_text
+
+    text = sheet_text(text, "text", [])
+    return text.replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;")

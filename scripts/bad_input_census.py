@@ -2,7 +2,9 @@
 
 Run from the repository root::
 
-    .venv/bin/python scripts/bad_input_census.py
+    .venv/bin/python scripts/bad_input_census.py [-v]
+
+(``-v`` lists the accepted values too).
 
 Each case is run in-process through the command line. A case is *clean* when it
 ends with exit code 2 (or 1 for a domain failure) and exactly one line on stderr
@@ -97,6 +99,8 @@ def main():
             counts[kind] += 1
             if kind == "dirty":
                 print("DIRTY", cmd_name, extra, r.exit_code, r.stderr.strip()[:200])
+            elif kind == "accepted" and "-v" in sys.argv:
+                print("accepted", cmd_name, extra)
         # project keys, each through the loader and (when refused) the design command
         import tomllib
 
@@ -130,6 +134,8 @@ def main():
                         print("DIRTY", f"{section}.{key}", value, type(exc).__name__, exc)
                         continue
                     counts["accepted"] += 1
+                    if "-v" in sys.argv:
+                        print("accepted", f"{section}.{key}", repr(value))
     dt = time.perf_counter() - t0
     print(f"tried {counts['tried']}, clean refusals {counts['clean']}, accepted (in range) "
           f"{counts['accepted']}, dirty {counts['dirty']} ({dt:.0f} s)")

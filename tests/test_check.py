@@ -498,3 +498,26 @@ def test_confidence_criterion(run, tmp_path):
     assert expect < next(x for x in out["criteria"] if x["name"] == "steady")["required"]
     r = run("check", proj, "--proposal", prop, "--confidence", "0.9")
     assert r.exit_code == 2 and "--k-cv" in r.stderr
+
+
+def test_season_criterion_matches_the_simulation(run, tmp_path):
+    """--weather/--target-sew30 checks the widest spacing the season simulation allows at
+    the proposal's depth (the same answer as 'drainplan simulate --target-sew30')."""
+    rng = np.random.default_rng(3)                     # two invented years of weather
+    days = np.arange(np.datetime64("2001-01-01"), np.datetime64("2003-01-01"))
+    rain = np.where(rng.random(days.size) < 0.3, rng.gamma(1.2, 9.0, days.size), 0.0)
+    rows = ["date,rain_mm,pet_mm"] + [f"{d},{r:.1f},2.0" for d, r in zip(days, rain)]
+    (tmp_path / "w.csv").write_text("\n".join(rows) + "\n")
+    proj = _project(tmp_path)
+    prop = _lines_file(tmp_path, list(np.arange(10.0, 300.0, 20.0)))
+    out = json.loads(run("check", proj, "--proposal", prop, "--weather", tmp_path / "w.csv",
+                         "--target-sew30", "60", "--json").stdout)
+    c = next(c for c in out["criteria"] if c["name"] == "season")
+    sim = json.loads(run("simulate", "--weather", tmp_path / "w.csv", "--spacing", "3:200:40",
+                         "--k", "0.6", "--drain-depth", "1.0", "--barrier-depth", "3.0",
+                         "--drain-radius", "sock-4in", "--drainable-porosity", "0.05",
+                         "--target-sew30", "60", "--json").stdout)
+    assert c["required"] == pytest.approx(sim["target"]["spacing_m"], abs=0.5)
+    assert c["meets"] is (20.0 <= c["required"])
+    r = run("check", proj, "--proposal", prop, "--target-sew30", "60")
+    assert r.exit_code == 2 and "--weather" in r.stderr

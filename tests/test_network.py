@@ -350,3 +350,35 @@ def test_submains_collect_cut_off_pieces(fp, bearing, setback):
     # every piece is collected, touches the network, or has a reason
     for i in range(len(lay.unconnected)):
         assert sub.served[i] != -1 or sub.reason[i]
+
+
+@pytest.mark.parametrize("fall_to", ["west", "east"])
+def test_terrain_puts_the_main_on_the_low_side(run, tmp_path, fall_to):
+    # an invented DEM (a plane falling 0.5 % to the west or to the east) under a field
+    # with east-west laterals: the main goes on the low end, without --main-side
+    rasterio = pytest.importorskip("rasterio")
+    from rasterio.transform import from_origin
+
+    f = _shift(shapely.box(0, 0, 300, 200))
+    fields = _write(tmp_path, "fields", [f], field_id=["D"])
+    cols, rows, cell = 80, 60, 5.0
+    x = X0 - 50 + cell * (np.arange(cols) + 0.5)
+    sign = 1.0 if fall_to == "west" else -1.0
+    z = np.tile(100 + sign * 0.005 * (x - X0), (rows, 1)).astype("float32")
+    dem = tmp_path / "dem.tif"
+    with rasterio.open(dem, "w", driver="GTiff", width=cols, height=rows, count=1,
+                       dtype="float32", crs=CRS,
+                       transform=from_origin(X0 - 50, Y0 + 250, cell, cell)) as ds:
+        ds.write(z, 1)
+    gpkg, _ = _layout(run, tmp_path, fields, "--direction", "90", "--dem", dem)
+    main = gpd.read_file(gpkg, layer="mains").to_crs(CRS).geometry.iloc[0]
+    mx = shapely.get_coordinates(main)[:, 0].mean() - X0
+    assert (mx < 20) if fall_to == "west" else (mx > 280)
+    # pipes on the same ground: the laterals fall with the ground, 0.5 %, no problem
+    r = run("pipes", gpkg, "--coefficient", "10 mm/d", "--dem", dem, "-o",
+            tmp_path / "s.csv", "--json")
+    assert r.exit_code == 0, r.output
+    data = json.loads(r.stdout)
+    lat = [x for x in data["reaches"] if x["kind"] == "lateral"]
+    assert_allclose([x["grade"] for x in lat], 0.005, rtol=1e-6)
+    assert not [v for v in data["violations"] if v["kind"] == "main on the high side"]

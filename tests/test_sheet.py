@@ -524,3 +524,18 @@ def test_field_table_adds_up(demo):
     assert sum(f["lateral_length_m"] for f in s["fields"]) == pytest.approx(
         q["lateral_length_m"], abs=0.01)
     assert all(f["spacing_m"] == s["design"]["spacing_m"] for f in s["fields"])
+
+
+def test_unprintable_field_id_is_warned_on_the_sheet(demo, tmp_path):
+    import copy
+
+    import pypdf
+
+    from drainplan.outputs import render_figures
+    from drainplan.sheet import build_sheet
+
+    s = copy.deepcopy(demo.summary)
+    s["fields"][0]["field_id"] = "北田"
+    build_sheet(s, render_figures(demo), str(tmp_path / "s.pdf"))
+    page1 = " ".join(pypdf.PdfReader(tmp_path / "s.pdf").pages[0].extract_text().split())
+    assert "cannot be shown by the sheet font" in page1 and "北" not in page1

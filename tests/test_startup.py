@@ -75,3 +75,18 @@ def test_limit_threads(environ, applied):
         assert all(env[v] == "1" for v in THREAD_VARIABLES)
     else:
         assert env == environ
+
+
+def test_allocator_tuning_only_on_glibc_and_not_over_the_user():
+    import sys as _sys
+
+    from drainplan.cli import tune_allocator
+
+    assert tune_allocator({"GLIBC_TUNABLES": "glibc.malloc.trim_threshold=1"}) is False
+    applied = tune_allocator({})
+    if not _sys.platform.startswith("linux"):
+        assert applied is False
+    else:
+        import platform
+
+        assert applied is (platform.libc_ver()[0] == "glibc")

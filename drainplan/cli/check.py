@@ -25,12 +25,22 @@ from .options import json_option
                    "criterion met with --confidence when K is lognormal.")
 @click.option("--confidence", type=float,
               help="Confidence level for --k-cv, 0.5-0.99 (default 0.8).")
+@click.option("--weather", "weather_path", type=click.Path(dir_okay=False),
+              help="Daily weather CSV (as for 'drainplan simulate'): with --target-sew30, "
+                   "also check the simulated season criterion.")
+@click.option("--target-sew30", type=float,
+              help="SEW30 limit per season in cm·d, checked by simulation over --weather.")
+@click.option("--season", default="all", show_default=True,
+              help="Growing season MM-DD:MM-DD for --target-sew30, or 'all'.")
+@click.option("--target-basis", type=click.Choice(["mean", "worst-year"]), default="mean",
+              show_default=True, help="Read the SEW30 target against the mean season or the "
+                                      "worst one.")
 @click.option("--units", type=click.Choice(["metric", "us"]), default=None,
               help="Units of the printed results (default: the project's).")
 @json_option
 @click.pass_context
-def check(ctx, project_path, proposal_path, crs, output, overwrite, k_cv, confidence, units,
-          as_json):
+def check(ctx, project_path, proposal_path, crs, output, overwrite, k_cv, confidence,
+          weather_path, target_sew30, season, target_basis, units, as_json):
     """Check the proposal in --proposal against every criterion of PROJECT.toml.
 
     Each lateral is checked at its own local spacing (measured on a drawn
@@ -46,6 +56,7 @@ def check(ctx, project_path, proposal_path, crs, output, overwrite, k_cv, confid
         drainplan check demo_fields/project.toml --proposal demo_fields/proposal.geojson
     """
     from ..check import check_proposal, read_proposal
+    from ..errors import InputError
     from ..outputs import check_output_folder
     from ..project import load_project
 
@@ -53,7 +64,20 @@ def check(ctx, project_path, proposal_path, crs, output, overwrite, k_cv, confid
     project = load_project(project_path)
     proposal = read_proposal(proposal_path, crs=crs)
     u = units or project.report.get("units", "metric")
-    result = check_proposal(project, proposal, units=u, k_cv=k_cv, confidence=confidence)
+    extra = []
+    if (weather_path is None) != (target_sew30 is None):
+        raise InputError("the season criterion needs both --weather and --target-sew30",
+                         param="target_sew30" if target_sew30 is None else "weather")
+    if weather_path is not None:
+        from ..check import season_criterion
+        from ..weather import parse_season, read_weather
+
+        season_t = parse_season(season)
+        weather = read_weather(weather_path)
+        extra.append(season_criterion(weather, target_sew30, season=season_t,
+                                      basis=target_basis, season_text=season))
+    result = check_proposal(project, proposal, units=u, k_cv=k_cv, confidence=confidence,
+                            extra_criteria=extra)
     paths = []
     if out is not None:
         from ..check_sheet import write_check_outputs

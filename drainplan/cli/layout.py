@@ -100,6 +100,9 @@ def _parse_outlet(value):
               help="Survey points (CSV x, y, z): with --direction auto, laterals run across "
                    "the fall of a plane fitted to each field.")
 @click.option("--survey-crs", help="CRS of the survey x, y (default: the working CRS).")
+@click.option("--dem", "dem_path", type=click.Path(dir_okay=False),
+              help="GeoTIFF DEM instead of survey points (needs drainplan[dem]): the "
+                   "terrain then decides the main's side and the outlet as with a survey.")
 @click.option("--plot", "plot_path", type=click.Path(dir_okay=False),
               help="Also write a PNG plan.")
 @click.option("--geojson-dir", type=click.Path(file_okay=False),
@@ -110,7 +113,7 @@ def _parse_outlet(value):
 def layout(fields, spacing, direction, setback, output, layer, id_field, crs, work_crs,
            keep_metric_crs, exclude_path, exclude_layer, exclude_setback, min_length, offset,
            main_side, pattern, herringbone_angle, main_path, outlet, cross_setbacks, repair,
-           survey_path, survey_crs,
+           survey_path, survey_crs, dem_path,
            plot_path, geojson_dir, overwrite, units, as_json):
     """Lay out parallel laterals and a collector main over the field boundaries in
     FIELDS (GeoJSON, GeoPackage, Shapefile or zipped Shapefile, FlatGeobuf).
@@ -130,7 +133,8 @@ def layout(fields, spacing, direction, setback, output, layer, id_field, crs, wo
     from ..gisio import check_input_file
 
     for f, what, opt in ((fields, "fields", "fields"), (exclude_path, "exclusions", "exclude"),
-                         (main_path, "main", "main"), (survey_path, "survey", "survey")):
+                         (main_path, "main", "main"), (survey_path, "survey", "survey"),
+                         (dem_path, "DEM", "dem")):
         if f:
             check_input_file(f, what=what, param=opt)                 # before any work
     check_layout_targets(out, plot_path=plot_path, geojson_dir=geojson_dir,
@@ -146,7 +150,8 @@ def layout(fields, spacing, direction, setback, output, layer, id_field, crs, wo
         fields_path=fields, options=opts, layer=layer, id_field=id_field, crs=crs,
         work_crs=work_crs, keep_metric_crs=keep_metric_crs, exclude_path=exclude_path,
         exclude_layer=exclude_layer, exclude_setback=exclude_setback, outlet=outlet_value,
-        main_path=main_path, repair=repair, survey_path=survey_path, survey_crs=survey_crs))
+        main_path=main_path, repair=repair, survey_path=survey_path, survey_crs=survey_crs,
+        dem_path=dem_path))
     write_layout(plan, out, plot_path=plot_path, geojson_dir=geojson_dir, overwrite=overwrite)
     for line in plan.reports:
         click.echo(f"drainplan: note: {line}", err=True)

@@ -12,7 +12,7 @@ from ..errors import ConvergenceWarning, DrainplanError, InputError
 from ..spacing import METHODS, drain_spacing
 from ..spacing.drain_radius import drain_radius_table, effective_radius
 from ..units import display_unit, parse_quantity, show, to_display
-from .options import FRACTION, LENGTH, RATE, TIME, json_option, units_option
+from .options import LENGTH, checked, json_option, units_option
 from .uncertainty_options import (run_uncertainty, uncertainty_json, uncertainty_options,
                                   uncertainty_text)
 
@@ -58,32 +58,39 @@ def _parse_sweep(text):
 @click.command(short_help="Drain spacing by Hooghoudt, Ernst, Kirkham or Glover-Dumm.")
 @click.option("--method", type=click.Choice(METHODS), default="hooghoudt", show_default=True,
               help="Design method.")
-@click.option("--k", type=RATE, help="Saturated hydraulic conductivity, one layer.")
-@click.option("--k-above", type=RATE, help="Conductivity above the layer interface "
+@click.option("--k", type=checked("rate", "k"),
+              help="Saturated hydraulic conductivity, one layer.")
+@click.option("--k-above", type=checked("rate", "k_above"),
+              help="Conductivity above the layer interface "
               "(at drain level unless --interface-depth).")
-@click.option("--k-below", type=RATE, help="Conductivity below the layer interface.")
-@click.option("--interface-depth", type=LENGTH,
+@click.option("--k-below", type=checked("rate", "k_below"),
+              help="Conductivity below the layer interface.")
+@click.option("--interface-depth", type=checked("length", "interface_depth"),
               help="Depth of the layer interface (ernst; default: drain depth).")
-@click.option("--k-vertical", type=RATE, help="Vertical conductivity of the top layer (ernst).")
+@click.option("--k-vertical", type=checked("rate", "k_vertical"),
+              help="Vertical conductivity of the top layer (ernst).")
 @click.option("--geometry-factor", type=float,
               help="Ernst's radial geometry factor a, instead of the table.")
-@click.option("--drain-depth", type=LENGTH, help="Depth of the drains (required).")
-@click.option("--barrier-depth", type=LENGTH,
+@click.option("--drain-depth", type=checked("length", "drain_depth"),
+              help="Depth of the drains (required).")
+@click.option("--barrier-depth", type=checked("length", "barrier_depth"),
               help="Depth of the impermeable barrier (required).")
 @click.option("--drain-radius", type=DrainRadius(),
               help="Effective drain radius, or a pipe type (see --list-radii) (required).")
 @click.option("--list-radii", is_flag=True,
               help="List the pipe types with their effective radius and source, and exit.")
-@click.option("--recharge", type=RATE,
+@click.option("--recharge", type=checked("rate", "recharge"),
               help="Steady design recharge (drainage coefficient), e.g. '10 mm/d'.")
-@click.option("--water-table-depth", type=LENGTH,
+@click.option("--water-table-depth", type=checked("length", "water_table_depth"),
               help="Required water-table depth midway between drains (steady methods).")
-@click.option("--initial-depth", type=LENGTH,
+@click.option("--initial-depth", type=checked("length", "initial_depth"),
               help="Midway water-table depth at the start of the drawdown (glover-dumm).")
-@click.option("--final-depth", type=LENGTH,
+@click.option("--final-depth", type=checked("length", "final_depth"),
               help="Required midway water-table depth at the end (glover-dumm).")
-@click.option("--days", type=TIME, help="Time allowed for the drawdown (glover-dumm).")
-@click.option("--drainable-porosity", type=FRACTION, help="Drainable porosity, e.g. 0.06.")
+@click.option("--days", type=checked("time", "days"),
+              help="Time allowed for the drawdown (glover-dumm).")
+@click.option("--drainable-porosity", type=checked("fraction", "drainable_porosity"),
+              help="Drainable porosity, e.g. 0.06.")
 @click.option("--initial-shape", type=click.Choice(["parabolic", "flat"]), default="parabolic",
               show_default=True, help="Initial water-table shape (glover-dumm).")
 @click.option("--flow-depth", type=click.Choice(["equivalent", "equivalent-plus-half-head"]),

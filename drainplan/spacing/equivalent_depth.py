@@ -279,38 +279,67 @@ _LN_T_VALID = float(np.log(_T_VALID))
 _CASES_PER_BLOCK = 16384
 
 
+# The kernels below work in place where they can: every new temporary of a
+# block costs an allocation, and on the test machine fresh memory is slow.
+
 def _w_small(L, inv_d, gamma, terms):
     """W, W', W'' for x <= switch: W = ln(D/(pi r0)) + pi L/(8 D) + R, R = -2 sum e_m t^m,
     t = exp(-pi L/(2 D)) (W'' keeps the first term of R only)."""
     s = L * inv_d
-    t = np.exp((-0.5 * _PI) * s)
+    t = np.multiply(s, -0.5 * _PI)
+    np.exp(t, out=t)
+    w = np.multiply(s, 0.125 * _PI, out=s)
+    w += gamma
     if terms > 2:
-        w = gamma + (0.125 * _PI) * s - 2.0 * _horner(t, _E[:terms])
-        w1 = inv_d * (0.125 * _PI + _PI * _horner(t, _E1))
+        r = _horner(t, _E[:terms])
+        r *= 2.0
+        w -= r
+        w1 = _horner(t, _E1)
+        w1 *= _PI
     else:
-        w = gamma + (0.125 * _PI) * s - 2.0 * t + t * t
-        w1 = inv_d * (0.125 * _PI + _PI * t)
-    w2 = (-0.5 * _PI * _PI) * (inv_d * inv_d) * t
+        w -= 2.0 * t
+        w += t * t
+        w1 = np.multiply(t, _PI)
+    w1 += 0.125 * _PI
+    w1 *= inv_d
+    w2 = np.multiply(t, (-0.5 * _PI * _PI) * inv_d * inv_d, out=t)
     return w, w1, w2
 
 
 def _w_large(L, two_pi_d, ln_pr, terms):
     """W, W', W'' for x > switch: W = ln(L/(pi r0)) + 4 sum c_m t^m, t = exp(-2x)
     (W'' with three terms of the series)."""
-    inv_l = 1.0 / L
-    x = two_pi_d * inv_l
-    t = np.exp(-2.0 * x)
+    inv_l = np.divide(1.0, L)
+    x = np.multiply(two_pi_d, inv_l)
+    t = np.multiply(x, -2.0)
+    np.exp(t, out=t)
+    w = np.log(L)
+    w -= ln_pr
     if terms > 2:
-        w = np.log(L) - ln_pr + 4.0 * _horner(t, _C[:terms])
-        xq = (8.0 * x) * _horner(t, _C1)
+        f = _horner(t, _C[:terms])
+        xq = _horner(t, _C1)
         q2 = _horner(t, _C2)
     else:
-        w = np.log(L) - ln_pr + 4.0 * t * (1.0 + t)
-        xq = (8.0 * x) * t
+        f = 1.0 + t
+        f *= t
+        xq = t.copy()
         q2 = t
-    w1 = (1.0 + xq) * inv_l
-    w2 = (-1.0 - 2.0 * xq + 16.0 * x * x * q2) * (inv_l * inv_l)
-    return w, w1, w2
+    f *= 4.0
+    w += f
+    xq *= x
+    xq *= 8.0                                   # 8 x sum m c_m t^m
+    q2 *= x
+    q2 *= x
+    q2 *= 16.0                                  # 16 x^2 sum m^2 c_m t^m
+    q2 -= 1.0
+    q2 -= xq
+    q2 -= xq
+    w1 = xq
+    w1 += 1.0
+    w1 *= inv_l
+    inv_l *= inv_l
+    q2 *= inv_l
+    return w, w1, q2
 
 
 def _kirkham_e2_small(L, D, r):
@@ -366,7 +395,7 @@ def _kirkham_e2(L, D, r):
     return out
 
 
-def _spacing_estimate(A, B, D, pr, L_D):
+def _spacing_estimate(A, B, D, pr, gamma, L_D):
     """Closed-form estimate of the root of L^2 = A L / W(L) + B (within ~20 %).
 
     The smaller of two spacings: the deep-barrier one (W = ln(L/(pi r0)), the
@@ -374,13 +403,28 @@ def _spacing_estimate(A, B, D, pr, L_D):
     that W) and one fixed-point step from the d = D spacing L_D with the
     shallow-barrier form d = D L / (L + (8/pi) D ln(D/(pi r0))).
     """
-    lb = np.log(np.maximum(A / pr, 3.0))
+    lb = np.divide(A, pr)
+    np.maximum(lb, 3.0, out=lb)
+    np.log(lb, out=lb)                          # ln B, B = A / (pi r0)
     llb = np.log(lb)
-    b = A / np.maximum(lb - llb + llb / lb, 1.0)
-    L_deep = 0.5 * (b + np.sqrt(b * b + 4.0 * B))
-    lam = (8.0 / _PI) * D * np.log(D / pr)
-    d_s = D * L_D / (L_D + np.maximum(lam, 0.0))
-    return np.minimum(L_deep, np.sqrt((8.0 / _PI) * A * d_s + B))
+    w = np.divide(llb, lb)
+    w -= llb
+    w += lb                                     # ln v, v ln v = B (asymptotic)
+    np.maximum(w, 1.0, out=w)
+    b = np.divide(A, w, out=w)
+    L_deep = np.multiply(b, b, out=llb)
+    L_deep += 4.0 * B
+    np.sqrt(L_deep, out=L_deep)
+    L_deep += b
+    L_deep *= 0.5
+    lam = np.maximum(gamma, 0.0, out=lb)
+    lam *= (8.0 / _PI) * D
+    lam += L_D
+    d_s = np.divide(L_D, lam, out=lam)
+    d_s *= (8.0 / _PI) * A * D
+    d_s += B
+    np.sqrt(d_s, out=d_s)
+    return np.minimum(L_deep, d_s, out=d_s)     # <= L_D
 
 
 def _flat(*arrays):
@@ -407,8 +451,8 @@ def _solve_spacing(n, prepare, bracket, exact, *, method="series", cap=True, kir
 
     ``prepare(sel) -> (A, B, D, r0, lo, hi)`` for the cases ``sel`` (a slice or
     an index array), with ``lo`` the narrowest spacing allowed and ``hi`` the
-    widest, or None for the d = D spacing L_D = sqrt(8 A D / pi + B) (the
-    bound when ``cap``: d = pi L / (8 W) is limited to D, as in Hooghoudt and
+    widest, or None for the d = D spacing L_D = sqrt(8 A D / pi + B) (only
+    with ``cap``: d = pi L / (8 W) is limited to D, as in Hooghoudt and
     Glover-Dumm, so cases whose d would exceed D have the root L_D).
     Those cases, drains on the barrier, roots outside the bounds and any case
     Halley cannot finish go to the bracketed solver on ``exact(L, idx)``, the
@@ -445,7 +489,7 @@ def _solve_block(A, B, D, r0, lo, hi, method, cap, kirkham, xtol):
     from .._solve import newton_block
 
     n = A.size
-    root = np.full(n, np.nan)
+    root = np.empty(n)               # cases left out are not done: the fallback fills them
     done = np.zeros(n, dtype=bool)
     pr = _PI * r0
     L_D = np.sqrt((8.0 / _PI) * A * D + B)
@@ -454,9 +498,7 @@ def _solve_block(A, B, D, r0, lo, hi, method, cap, kirkham, xtol):
     # barrier depth at all), or spacings within a few radii: those go to the
     # bracketed solver.
     ok = (gamma > 0.05) & (L_D > 12.0 * r0) if cap else np.ones(n, dtype=bool)
-    if hi is None:
-        hi = L_D * (1.0 + 1e-9)
-    L0 = np.minimum(np.maximum(_spacing_estimate(A, B, D, pr, L_D), lo), hi)
+    L0 = np.maximum(_spacing_estimate(A, B, D, pr, gamma, L_D), lo)
     small = (2.0 * _PI * D <= _X_SWITCH * L0) if method == "series" else (D <= 0.3 * L0)
     for branch in (True, False):
         sel = ok & small if branch else ok & ~small
@@ -471,8 +513,8 @@ def _solve_block(A, B, D, r0, lo, hi, method, cap, kirkham, xtol):
         wargs = _w_args(branch, method, kirkham, Db, r0[idx], gamma[idx])
         prev = None
         if method == "series" and not kirkham:
-            # one Halley step with two terms of the series (cheap, ~1e-3 close)
-            g, g1, g2 = _g(_w_func(branch, method, kirkham, 2), x, Ab, Bb, wargs)
+            # one Halley step with four terms of the series (cheap, ~1e-6 close)
+            g, g1, g2 = _g(_w_func(branch, method, kirkham, 4), x, Ab, Bb, wargs)
             step = g / (g1 - 0.5 * g * g2 / g1)
             x = x - step
             prev = np.abs(step)
@@ -490,11 +532,9 @@ def _solve_block(A, B, D, r0, lo, hi, method, cap, kirkham, xtol):
             good &= (Db <= 0.3 * L) == branch
         root[idx] = L
         done[idx] = good
-    done &= (root >= lo) & (root <= hi)
-    if cap:
-        # d = pi (L^2 - B) / (8 A) at the root of G: above D if L passes L_D, and
-        # then the root is L_D itself (the bracketed solver finds it)
-        done &= root <= L_D
+    # d = pi (L^2 - B) / (8 A) at the root of G: above D if L passes L_D, and then
+    # the root is L_D itself (the bracketed solver finds it)
+    done &= (root >= lo) & (root <= (L_D if hi is None else hi))
     if method == "moody":
         # Moody's d jumps up where D/L passes 0.3 (W drops by 0.021); when the
         # equation changes sign down across that jump it has a root on each
@@ -504,7 +544,8 @@ def _solve_block(A, B, D, r0, lo, hi, method, cap, kirkham, xtol):
         w_deep = np.log(Lj / r0) - 1.15
         w_shallow = (0.125 * _PI) * (1.0 / 0.3 + (8.0 / _PI) * np.log(D / r0) - 3.55
                                      + 1.6 * 0.3 - 2.0 * 0.09)
-        done &= ~((Lj > lo) & (Lj < hi) & (w_deep * u > A) & (w_shallow * u < A))
+        done &= ~((Lj > lo) & (Lj < (L_D if hi is None else hi)) & (w_deep * u > A)
+                  & (w_shallow * u < A))
     return root, done
 
 
@@ -513,14 +554,29 @@ def _g(wfun, L, A, B, wargs):
     gives W and W' only)."""
     out = wfun(L, *wargs)
     w, w1 = out[0], out[1]
-    inv_l = 1.0 / L
-    bl = B * inv_l
-    u = L - bl
-    u1 = 1.0 + bl * inv_l
+    inv_l = np.divide(1.0, L)
+    bl = np.multiply(B, inv_l)                  # B / L
+    u = np.subtract(L, bl)                      # L - B / L
+    bl *= inv_l                                 # B / L^2
+    u1 = np.add(bl, 1.0)                        # u' = 1 + B / L^2
+    g = np.multiply(w, u)
+    g -= A
+    g1 = np.multiply(w, u1)
     if len(out) == 2:
-        return w * u - A, w1 * u + w * u1
-    return (w * u - A, w1 * u + w * u1,
-            out[2] * u + 2.0 * w1 * u1 - 2.0 * w * bl * inv_l * inv_l)
+        w1 *= u
+        g1 += w1
+        return g, g1
+    g2 = np.multiply(out[2], u)
+    bl *= inv_l
+    bl *= w
+    bl *= 2.0                                   # 2 W B / L^3 = -W u''
+    g2 -= bl
+    u1 *= w1
+    u1 *= 2.0
+    g2 += u1                                    # W'' u + 2 W' u' + W u''
+    w1 *= u
+    g1 += w1
+    return g, g1, g2
 
 
 def _w_args(small, method, kirkham, D, r0, gamma):

@@ -330,7 +330,7 @@ def glover_dumm_spacing(*, initial_head, final_head, time, k, drainable_porosity
                          param="depth_to_barrier")
     c = INITIAL_SHAPES[shape]
     factor = K * t / (mu * np.log(c * y0 / yt))          # L^2 = pi^2 factor D, Eq. (4.1)
-    extra = 0.5 * y0 if plus_half else np.zeros_like(y0)
+    extra = 0.5 * y0 if plus_half else 0.0
     shape_, inputs = _flat(factor, D, r0, extra)
 
     def prepare(sel):

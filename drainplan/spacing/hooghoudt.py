@@ -122,7 +122,8 @@ def hooghoudt_spacing(*, recharge, head, k_below, depth_to_barrier, drain_radius
         q, h, k1, k2, D, r0 = _take(inputs, sel)
         # q L^2 = 8 K2 h d + 4 K1 h^2 with d = pi L / (8 W):  L^2 = A L / W + B;
         # the root lies between the Donnan spacing (d = 0) and L_D (d = D)
-        return np.pi * k2 * h / q, 4.0 * k1 * h * h / q, D, r0, np.pi * r0 * (1.0 + 1e-6), None
+        hq = h / q
+        return (np.pi * k2) * hq, (4.0 * k1) * (h * hq), D, r0, (np.pi * (1.0 + 1e-6)) * r0, None
 
     def bracket(sel):
         q, h, k1, k2, D, r0 = _take(inputs, sel)
