@@ -102,3 +102,24 @@ def test_bad_input(kw, match):
     args.update(kw)
     with pytest.raises(InputError, match=match):
         ernst_profile_spacing(**args)
+
+
+def test_thin_radial_zone_adds_no_negative_loss():
+    """Drains 0.25 m above the barrier with r0 = 0.1 m (D_r < pi r0): the radial
+    loss is zero, never negative, and Ernst then equals Hooghoudt with d = D
+    (both reduce to q L^2 = 8 K D h + 4 K h^2; Hooghoudt 1940, Ritzema 1994 ILRI
+    Publ. 16 eq. 8.8 as recalled; derived identity, METHODS 1.3(d))."""
+    from drainplan.spacing.ernst import ernst_profile_spacing, ernst_profile_terms
+    from drainplan.spacing.hooghoudt import hooghoudt_spacing
+
+    L = ernst_profile_spacing(head=0.4, recharge=0.005, drain_depth=1.0, barrier_depth=1.25,
+                              k_top=0.8, drain_radius=0.1, k_vertical=1e9)
+    terms = ernst_profile_terms(spacing=L, head=0.4, drain_depth=1.0, barrier_depth=1.25,
+                                k_top=0.8, drain_radius=0.1, k_vertical=1e9)
+    assert terms["radial"] == 0.0
+    Lh = hooghoudt_spacing(recharge=0.005, head=0.4, k_above=0.8, k_below=0.8,
+                           depth_to_barrier=0.25, drain_radius=0.1)
+    np.testing.assert_allclose(L, Lh, rtol=1e-5)
+    # independent: the Donnan form solved by hand
+    np.testing.assert_allclose(L, np.sqrt((8 * 0.8 * 0.25 * 0.4 + 4 * 0.8 * 0.16) / 0.005),
+                               rtol=1e-5)

@@ -302,6 +302,11 @@ def ernst_profile_terms(*, spacing, head, drain_depth, barrier_depth, k_top, dra
       a from :func:`ernst_geometry_factor` (the bottom layer counts as
       impermeable when K_b/K_t < 0.1).
 
+    Where the radial zone is thinner than u / a (drains within about pi r0 of
+    the barrier or of a less permeable layer) the radial loss ln(a D_r / u)
+    would turn negative; it is taken as zero there, the limit that
+    Hooghoudt's equivalent depth reaches with d = D.
+
     The horizontal transmissivity integrates K over the saturated zone from
     h/2 above drain level (the mean saturated height above the drains) down
     to the barrier (or to the interface when the bottom layer counts as
@@ -354,7 +359,9 @@ def ernst_profile_terms(*, spacing, head, drain_depth, barrier_depth, k_top, dra
             "geometry_factor": a, "vertical_resistance": c_vert, "wet_perimeter": u,
             "vertical": c_vert,
             "horizontal": L * L / (8.0 * kd),
-            "radial": L / (np.pi * k_radial) * np.log(a * d_radial / u),
+            # a radial zone thinner than u/a adds no radial resistance (the same
+            # limit as Hooghoudt's d <= D): the loss is clipped at zero
+            "radial": L / (np.pi * k_radial) * np.log(np.maximum(a * d_radial / u, 1.0)),
         }
     return {k: scalar_or_array(v) for k, v in terms.items()}
 
