@@ -85,12 +85,11 @@ def _map_png(result, dpi=110):
 
 def build_check_sheet(summary, map_png, path, *, units="metric", paper="A4", cautions=None):
     """Write the check sheet PDF at ``path`` (the caller renames it into place)."""
-    from reportlab import rl_config
     from reportlab.lib.pagesizes import A4, LETTER
     from reportlab.lib.units import mm
-    from reportlab.platypus import PageBreak, Paragraph, SimpleDocTemplate, Spacer
+    from reportlab.platypus import PageBreak, Paragraph, Spacer
 
-    from .sheet import _esc, _fonts, _image, _styles, _table, read_cautions, _FONT
+    from .sheet import _build_pdf, _esc, _fonts, _image, _styles, _table, read_cautions
     from .units import show
 
     _fonts()
@@ -176,25 +175,8 @@ def build_check_sheet(summary, map_png, path, *, units="metric", paper="A4", cau
         story.append(P(_esc(text)))
         story.append(Spacer(1, 4))
 
-    def footer(canvas, doc):
-        canvas.saveState()
-        canvas.setFont(_FONT, 7)
-        canvas.drawString(18 * mm, 10 * mm, f"drainplan check sheet — {proj.get('name', '')}")
-        canvas.drawRightString(page[0] - 18 * mm, 10 * mm, f"page {doc.page}")
-        canvas.drawCentredString(page[0] / 2, 6 * mm, "A design aid: check against local codes "
-                                 "and have it reviewed by a qualified professional.")
-        canvas.restoreState()
-
-    old = rl_config.invariant
-    rl_config.invariant = 1
-    try:
-        doc = SimpleDocTemplate(path, pagesize=page, leftMargin=18 * mm, rightMargin=18 * mm,
-                                topMargin=16 * mm, bottomMargin=18 * mm,
-                                title=f"Proposal check — {proj.get('name', '')}",
-                                author="drainplan", invariant=1)
-        doc.build(story, onFirstPage=footer, onLaterPages=footer)
-    finally:
-        rl_config.invariant = old
+    _build_pdf(story, path, page, footer=f"drainplan check sheet — {proj.get('name', '')}",
+               title=f"Proposal check — {proj.get('name', '')}")
 
 
 def write_check_outputs(result, outdir, *, overwrite=False, units="metric", paper="A4"):

@@ -187,6 +187,34 @@ class _Fmt:
         return self._to(v, role, self.units)
 
 
+def _build_pdf(story, path, page, *, footer, title):
+    """Lay ``story`` out on ``page``-sized pages in ``path`` with the drainplan footer
+    (``footer`` at the left, the page number at the right, the design-aid caution
+    centred) and PDF title ``title``; the same input gives the same file bytes."""
+    from reportlab import rl_config
+    from reportlab.lib.units import mm
+    from reportlab.platypus import SimpleDocTemplate
+
+    def draw_footer(canvas, doc):
+        canvas.saveState()
+        canvas.setFont(_FONT, 7)
+        canvas.drawString(18 * mm, 10 * mm, footer)
+        canvas.drawRightString(page[0] - 18 * mm, 10 * mm, f"page {doc.page}")
+        canvas.drawCentredString(page[0] / 2, 6 * mm, "A design aid: check against local codes "
+                                 "and have it reviewed by a qualified professional.")
+        canvas.restoreState()
+
+    old = rl_config.invariant
+    rl_config.invariant = 1
+    try:
+        doc = SimpleDocTemplate(path, pagesize=page, leftMargin=18 * mm, rightMargin=18 * mm,
+                                topMargin=16 * mm, bottomMargin=18 * mm, title=title,
+                                author="drainplan", invariant=1)
+        doc.build(story, onFirstPage=draw_footer, onLaterPages=draw_footer)
+    finally:
+        rl_config.invariant = old
+
+
 def _equations(s, f):
     """The equations the design used, as computed, each with its symbols and numbers:
     list of (title, [equation lines], symbols, numbers or None)."""
@@ -374,11 +402,9 @@ def build_sheet(summary, figures_png, path, *, units="metric", paper="A4", logo=
     list of str
         Warnings about text the sheet could not show as given.
     """
-    from reportlab import rl_config
     from reportlab.lib.pagesizes import A4, LETTER
     from reportlab.lib.units import mm
-    from reportlab.platypus import (CondPageBreak, Image, PageBreak, Paragraph,
-                                    SimpleDocTemplate, Spacer)
+    from reportlab.platypus import CondPageBreak, Image, PageBreak, Paragraph, Spacer
 
     from ._text import sheet_text
 
@@ -679,27 +705,9 @@ def build_sheet(summary, figures_png, path, *, units="metric", paper="A4", logo=
                      if r.get("cover_min_m") is not None else "–"])
     story.extend(_long_tables(prow, font_size=6.5))
 
-    def footer(canvas, doc):
-        canvas.saveState()
-        canvas.setFont(_FONT, 7)
-        canvas.drawString(18 * mm, 10 * mm, "drainplan design sheet — "
-                          + sheet_text(proj.get("name", ""), "site name", []))
-        canvas.drawRightString(page[0] - 18 * mm, 10 * mm, f"page {doc.page}")
-        canvas.drawCentredString(page[0] / 2, 6 * mm, "A design aid: check against local codes "
-                                 "and have it reviewed by a qualified professional.")
-        canvas.restoreState()
-
-    old = rl_config.invariant
-    rl_config.invariant = 1
-    try:
-        doc = SimpleDocTemplate(path, pagesize=page, leftMargin=18 * mm, rightMargin=18 * mm,
-                                topMargin=16 * mm, bottomMargin=18 * mm,
-                                title="Drainage design — "
-                                      + sheet_text(proj.get("name", ""), "site name", []),
-                                author="drainplan", invariant=1)
-        doc.build(story, onFirstPage=footer, onLaterPages=footer)
-    finally:
-        rl_config.invariant = old
+    site = sheet_text(proj.get("name", ""), "site name", [])
+    _build_pdf(story, path, page, footer="drainplan design sheet — " + site,
+               title="Drainage design — " + site)
     return text_warnings
 
 
