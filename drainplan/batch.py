@@ -156,15 +156,9 @@ def _project_soil(settings, n, depth):
     s = dict(settings.soil)
     out = {}
     if "layers" in s:
-        from .soil import reduce_layers
+        from .design import reduce_project_layers
 
-        ly = s["layers"]
-        c = settings.criteria
-        zone = (c["initial_depth"], c["final_depth"]) if "initial_depth" in c else None
-        mus = [x.get("drainable_porosity") for x in ly]
-        r = reduce_layers([x["thickness"] for x in ly], [x["k"] for x in ly], depth,
-                          drainable_porosity=None if None in mus else mus,
-                          barrier_depth=s.get("barrier_depth"), porosity_zone=zone)
+        r = reduce_project_layers(s, settings.criteria, depth)
         out.update(k_above=r["k_above"], k_below=r["k_below"],
                    barrier_depth=r["barrier_depth"])
         if r["drainable_porosity"] is not None:

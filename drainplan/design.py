@@ -19,7 +19,7 @@ from .spacing import (METHODS, drain_spacing, glover_dumm_head, glover_dumm_prof
                       hooghoudt_water_table)
 
 __all__ = ["DesignResult", "design", "REFERENCES", "check_sheet_text", "soil_at_depth",
-           "project_spacing", "layout_inputs"]
+           "project_spacing", "layout_inputs", "reduce_project_layers"]
 
 #: Full citations printed on the design sheet, by method.
 REFERENCES = {
@@ -98,20 +98,28 @@ def layout_inputs(p, spacing, **extra):
         repair=lo.get("repair", False), **extra)
 
 
+def reduce_project_layers(soil, criteria, depth):
+    """:func:`drainplan.soil.reduce_layers` for a project's ``[[soil.layers]]`` with
+    drains at ``depth`` [m]; drainable porosity is averaged over the falling
+    criterion's zone where [criteria] gives one."""
+    from .soil import reduce_layers
+
+    ly = soil["layers"]
+    zone = (criteria["initial_depth"], criteria["final_depth"]) \
+        if "initial_depth" in criteria else None
+    mus = [x.get("drainable_porosity") for x in ly]
+    return reduce_layers([x["thickness"] for x in ly], [x["k"] for x in ly], depth,
+                         drainable_porosity=None if None in mus else mus,
+                         barrier_depth=soil.get("barrier_depth"), porosity_zone=zone)
+
+
 def soil_at_depth(p, depth):
     """The soil as the methods see it with drains at ``depth``: one K, or K above and
     below drain level (a layered profile is reduced there), barrier depth, porosity."""
     s = dict(p.soil)
     if "layers" in s:
-        from .soil import reduce_layers
-
-        ly = s.pop("layers")
-        c = p.criteria
-        zone = (c["initial_depth"], c["final_depth"]) if "initial_depth" in c else None
-        mus = [x.get("drainable_porosity") for x in ly]
-        r = reduce_layers([x["thickness"] for x in ly], [x["k"] for x in ly], depth,
-                          drainable_porosity=None if None in mus else mus,
-                          barrier_depth=s.get("barrier_depth"), porosity_zone=zone)
+        r = reduce_project_layers(s, p.criteria, depth)
+        del s["layers"]
         s["k_above"], s["k_below"] = r["k_above"], r["k_below"]
         s["barrier_depth"] = r["barrier_depth"]
         if r["drainable_porosity"] is not None and "drainable_porosity" not in p.soil:
