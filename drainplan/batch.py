@@ -136,19 +136,7 @@ def load_batch_settings(path):
         out.pop("report", None)
         out.pop("simulation", None)          # batches do not run the season simulation
     crit = out["criteria"]
-    steady = "recharge" in crit or "water_table_depth" in crit
-    falling = any(k in crit for k in ("initial_depth", "final_depth", "days"))
-    if not steady and not falling:
-        raise InputError(f"{p.name}: [criteria] needs recharge and water_table_depth "
-                         "(steady) or initial_depth, final_depth and days (falling), or both",
-                         param="project")
-    for group, keys in (("steady", ("recharge", "water_table_depth")),
-                        ("falling", ("initial_depth", "final_depth", "days"))):
-        given = [k for k in keys if k in crit]
-        if given and len(given) != len(keys):
-            missing = [k for k in keys if k not in crit]
-            raise InputError(f"{p.name}: criteria.{missing[0]} is required with the "
-                             f"{group} criterion", param="project")
+    steady, _ = pj.check_criteria(p.name, crit)
     if steady and crit.get("method") == "glover-dumm":
         raise InputError(f"{p.name}: criteria.method glover-dumm needs no steady recharge; "
                          "choose hooghoudt, ernst or kirkham for the steady criterion",

@@ -91,12 +91,12 @@ class SpacingCriterion:
 
 
 def _design_spacing(p, method, depth, radius, k_scale=1.0):
-    from .design import _spacing
+    from .design import project_spacing
 
     q = dataclasses.replace(p, drains={**p.drains, "radius": radius})
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", ConvergenceWarning)
-        r = _spacing(q, method, depth, k_scale=k_scale)
+        r = project_spacing(q, method, depth, k_scale=k_scale)
     if r is None:
         return float("nan")
     if isinstance(r, Exception):
@@ -175,7 +175,7 @@ def season_criterion(weather, target, *, season=None, basis="mean", season_text=
     between drains with the equivalent depth; :mod:`drainplan.simulation_plan`),
     refined to 0.1 m. ``season`` is a parsed growing season (None: the whole year).
     """
-    from .design import _soil_at
+    from .design import soil_at_depth
     from .simulation_plan import SimulationSite, widest_spacing_for_target
 
     if not (math.isfinite(target) and target >= 0):
@@ -183,7 +183,7 @@ def season_criterion(weather, target, *, season=None, basis="mean", season_text=
     grid = np.geomspace(3.0, 200.0, 14)
 
     def allowed(p, z, r):
-        soil = _soil_at(p, z)
+        soil = soil_at_depth(p, z)
         mu = soil.get("drainable_porosity")
         if mu is None:
             raise InputError(f"{p.path.name}: the season simulation needs "
@@ -538,23 +538,10 @@ def _layout_lines(p, prop, work_crs):
     """Numbers only: drainplan's own layout at the proposed spacing."""
     import geopandas as gpd
 
-    from .geometry.layout import LayoutOptions
-    from .layout_plan import LayoutInputs, plan_layout
+    from .design import layout_inputs
+    from .layout_plan import plan_layout
 
-    lo, fl = p.layout, p.fields
-    opts = LayoutOptions(spacing=prop.numbers["lateral_spacing"],
-                         direction=lo.get("direction", "auto"),
-                         setback=lo.get("setback", 0.0), min_length=lo.get("min_length", 10.0),
-                         offset=lo.get("offset"), main_side=lo.get("main_side", "auto"),
-                         cross_setbacks=lo.get("cross_setbacks", True),
-                         pattern=lo.get("pattern", "parallel"),
-                         herringbone_angle=lo.get("herringbone_angle", 45.0))
-    lp = plan_layout(LayoutInputs(
-        fields_path=fl["file"], options=opts, layer=fl.get("layer"),
-        id_field=fl.get("id_attribute"), crs=fl.get("crs"), work_crs=fl.get("work_crs"),
-        exclude_path=fl.get("exclusions"), exclude_layer=fl.get("exclusions_layer"),
-        exclude_setback=fl.get("exclusion_setback", 15.0), outlet=fl.get("outlet"),
-        repair=lo.get("repair", False), keep_metric_crs=True))
+    lp = plan_layout(layout_inputs(p, prop.numbers["lateral_spacing"], keep_metric_crs=True))
     import pandas as pd
 
     lat = lp.layers["laterals"].to_crs(work_crs)

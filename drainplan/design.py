@@ -18,7 +18,8 @@ from .project import Project
 from .spacing import (METHODS, drain_spacing, glover_dumm_head, glover_dumm_profile,
                       hooghoudt_water_table)
 
-__all__ = ["DesignResult", "design", "REFERENCES", "check_sheet_text"]
+__all__ = ["DesignResult", "design", "REFERENCES", "check_sheet_text", "soil_at_depth",
+           "project_spacing", "layout_inputs"]
 
 #: Full citations printed on the design sheet, by method.
 REFERENCES = {
@@ -76,7 +77,28 @@ class DesignResult:
     figures: dict = field(default_factory=dict)
 
 
-def _soil_at(p, depth):
+def layout_inputs(p, spacing, **extra):
+    """The :class:`drainplan.layout_plan.LayoutInputs` for the project's [fields] and
+    [layout] with laterals ``spacing`` [m] apart; ``extra`` adds further fields."""
+    from .geometry.layout import LayoutOptions
+    from .layout_plan import LayoutInputs
+
+    lo, fl = p.layout, p.fields
+    opts = LayoutOptions(spacing=spacing, direction=lo.get("direction", "auto"),
+                         setback=lo.get("setback", 0.0), min_length=lo.get("min_length", 10.0),
+                         offset=lo.get("offset"), main_side=lo.get("main_side", "auto"),
+                         cross_setbacks=lo.get("cross_setbacks", True),
+                         pattern=lo.get("pattern", "parallel"),
+                         herringbone_angle=lo.get("herringbone_angle", 45.0))
+    return LayoutInputs(
+        fields_path=fl["file"], options=opts, layer=fl.get("layer"),
+        id_field=fl.get("id_attribute"), crs=fl.get("crs"), work_crs=fl.get("work_crs"),
+        exclude_path=fl.get("exclusions"), exclude_layer=fl.get("exclusions_layer"),
+        exclude_setback=fl.get("exclusion_setback", 15.0), outlet=fl.get("outlet"),
+        repair=lo.get("repair", False), **extra)
+
+
+def soil_at_depth(p, depth):
     """The soil as the methods see it with drains at ``depth``: one K, or K above and
     below drain level (a layered profile is reduced there), barrier depth, porosity."""
     s = dict(p.soil)
@@ -106,7 +128,7 @@ def _soil_args(s):
     return out
 
 
-def _spacing(p, method, depth, k_scale=1.0, quiet=True, over=None):
+def project_spacing(p, method, depth, k_scale=1.0, quiet=True, over=None):
     """drain_spacing for the project at one depth; None where the method does not apply.
 
     ``over`` replaces inputs for a sensitivity case: ``drainable_porosity``,
@@ -128,7 +150,7 @@ def _spacing_args(p, method, depth, k_scale=1.0, over=None):
     """Keyword arguments of drain_spacing for the project at one depth (None: n/a)."""
     c, d = p.criteria, p.drains
     over = over or {}
-    s = _soil_at(p, depth)
+    s = soil_at_depth(p, depth)
     for key in ("drainable_porosity", "barrier_depth"):
         if key in over:
             s[key] = over[key]
@@ -202,14 +224,14 @@ def design(project, *, progress=None):
         row = {"drain_depth_m": z}
         gov = []
         if has_steady:
-            r = _spacing(p, steady_method, z, quiet=False) if len(depths) == 1 else \
-                _spacing(p, steady_method, z)
+            r = project_spacing(p, steady_method, z, quiet=False) if len(depths) == 1 else \
+                project_spacing(p, steady_method, z)
             row["steady_spacing_m"] = _f(r.spacing) if not isinstance(r, Exception) else None
             row["steady_note"] = str(r) if isinstance(r, Exception) else None
             if row["steady_spacing_m"]:
                 gov.append(row["steady_spacing_m"])
         if has_falling:
-            r = _spacing(p, "glover-dumm", z, quiet=len(depths) > 1)
+            r = project_spacing(p, "glover-dumm", z, quiet=len(depths) > 1)
             row["falling_spacing_m"] = _f(r.spacing) if not isinstance(r, Exception) else None
             row["falling_note"] = str(r) if isinstance(r, Exception) else None
             if row["falling_spacing_m"]:
@@ -247,7 +269,7 @@ def design(project, *, progress=None):
     comparison = []
     main_result = None
     for m in METHODS:
-        r = _spacing(p, m, depth)
+        r = project_spacing(p, m, depth)
         if r is None:
             continue
         entry = {"method": m, "spacing_m": None, "equivalent_depth_m": None, "note": None,
@@ -269,23 +291,10 @@ def design(project, *, progress=None):
 
     # layout
     say("layout")
-    from .geometry.layout import LayoutOptions
-    from .layout_plan import LayoutInputs, plan_layout
+    from .layout_plan import plan_layout
 
-    lo, fl = p.layout, p.fields
-    opts = LayoutOptions(spacing=spacing, direction=lo.get("direction", "auto"),
-                         setback=lo.get("setback", 0.0), min_length=lo.get("min_length", 10.0),
-                         offset=lo.get("offset"), main_side=lo.get("main_side", "auto"),
-                         cross_setbacks=lo.get("cross_setbacks", True),
-                         pattern=lo.get("pattern", "parallel"),
-                         herringbone_angle=lo.get("herringbone_angle", 45.0))
-    lp = plan_layout(LayoutInputs(
-        fields_path=fl["file"], options=opts, layer=fl.get("layer"),
-        id_field=fl.get("id_attribute"), crs=fl.get("crs"), work_crs=fl.get("work_crs"),
-        exclude_path=fl.get("exclusions"), exclude_layer=fl.get("exclusions_layer"),
-        exclude_setback=fl.get("exclusion_setback", 15.0), outlet=fl.get("outlet"),
-        repair=lo.get("repair", False), survey_path=p.pipes.get("survey"),
-        survey_crs=p.pipes.get("survey_crs"),
+    lp = plan_layout(layout_inputs(
+        p, spacing, survey_path=p.pipes.get("survey"), survey_crs=p.pipes.get("survey_crs"),
         survey_z_unit=p.pipes.get("survey_z_unit", "m"), dem_path=p.pipes.get("dem")))
 
     # pipes
@@ -355,7 +364,7 @@ def _season_simulation(p, depth, spacing, raw_spacing, coef, lp):
     from .weather import parse_season, read_weather
 
     sim = p.simulation
-    s = _soil_at(p, depth)
+    s = soil_at_depth(p, depth)
     profile = None
     if "layers" in p.soil and "drainable_porosity" not in p.soil and all(
             "drainable_porosity" in ly for ly in p.soil["layers"]):
@@ -430,11 +439,11 @@ def _governing_spacing(p, depth, steady_method, has_falling, **kw):
     """Narrowest spacing of the project's criteria at one depth, and which criterion."""
     out = []
     if steady_method:
-        r = _spacing(p, steady_method, depth, **kw)
+        r = project_spacing(p, steady_method, depth, **kw)
         if r is not None and not isinstance(r, Exception) and np.isfinite(r.spacing):
             out.append((float(r.spacing), "steady"))
     if has_falling:
-        r = _spacing(p, "glover-dumm", depth, **kw)
+        r = project_spacing(p, "glover-dumm", depth, **kw)
         if r is not None and not isinstance(r, Exception) and np.isfinite(r.spacing):
             out.append((float(r.spacing), "falling"))
     return min(out) if out else (None, None)
@@ -456,7 +465,7 @@ def _radius_steps(r0):
 def _sensitivity(p, depth, steady_method, has_falling):
     """Design spacing (narrowest of the criteria, before rounding) at a low, the base and
     a high value of each uncertain input, the others held at their base values."""
-    s = _soil_at(p, depth)
+    s = soil_at_depth(p, depth)
     base_L, base_c = _governing_spacing(p, depth, steady_method, has_falling)
     rows = []
 
@@ -517,7 +526,7 @@ def _falling_discharge(p, fd, coef):
 
     if "reaction_factor" not in fd:
         return None
-    c, s = p.criteria, _soil_at(p, fd["drain_depth"])
+    c, s = p.criteria, soil_at_depth(p, fd["drain_depth"])
     mu, a = s["drainable_porosity"], fd["reaction_factor"]
     L, t = fd["spacing"], c["days"]
     y0 = fd["drain_depth"] - c["initial_depth"]
@@ -576,7 +585,7 @@ def _design_warnings(p, comparison, method, falling):
 
 def _figure_data(p, depth, spacing, r, method):
     """Arrays for the cross-section and the falling water-table figures."""
-    s, c = _soil_at(p, depth), p.criteria
+    s, c = soil_at_depth(p, depth), p.criteria
     D = s["barrier_depth"] - depth
     k_below = s.get("k", s.get("k_below"))
     k_above = s.get("k", s.get("k_above"))
@@ -595,7 +604,7 @@ def _figure_data(p, depth, spacing, r, method):
         out["steady_depth"] = depth - h
         out["steady_target"] = c["water_table_depth"]
     if "initial_depth" in c:
-        rr = _spacing(p, "glover-dumm", depth)
+        rr = project_spacing(p, "glover-dumm", depth)
         if rr is not None and not isinstance(rr, Exception):
             from .spacing import glover_dumm_flow_depth, reaction_factor
 
@@ -630,7 +639,7 @@ def _soil_notes(p, depth, method):
 
     u = p.report.get("units", "metric")
     kd = 3 if u == "us" else 2
-    s = _soil_at(p, depth)
+    s = soil_at_depth(p, depth)
     notes = []
     if "layers" in p.soil:
         notes.append(f"{len(p.soil['layers'])}-layer profile reduced at the drain depth "
@@ -677,7 +686,7 @@ def _summary(p, table, depth, spacing, raw_spacing, governing, method, compariso
     outlets = _outlets(lp)
     inputs = {
         "soil": {k: _plain(v) for k, v in p.soil.items()},
-        "soil_at_drain_depth": {k: _plain(v) for k, v in _soil_at(p, depth).items()},
+        "soil_at_drain_depth": {k: _plain(v) for k, v in soil_at_depth(p, depth).items()},
         "criteria": {k: (v if isinstance(v, str) else _f(v, 6)) for k, v in p.criteria.items()},
         "drains": {"depths_m": [_f(z, 4) for z in p.drains["depth"]],
                    "radius_m": _f(p.drains["radius"], 4),

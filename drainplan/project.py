@@ -320,19 +320,7 @@ def load_project(path, *, check_files=True):
     if "barrier_depth" not in soil:
         raise InputError(f"{p.name}: soil.barrier_depth is required", param="project")
     crit = out["criteria"]
-    steady = "recharge" in crit or "water_table_depth" in crit
-    falling = any(k in crit for k in ("initial_depth", "final_depth", "days"))
-    if not steady and not falling:
-        raise InputError(f"{p.name}: [criteria] needs recharge and water_table_depth "
-                         "(steady) or initial_depth, final_depth and days (falling), or both",
-                         param="project")
-    for group, keys in (("steady", ("recharge", "water_table_depth")),
-                        ("falling", ("initial_depth", "final_depth", "days"))):
-        given = [k for k in keys if k in crit]
-        if given and len(given) != len(keys):
-            missing = [k for k in keys if k not in crit]
-            raise InputError(f"{p.name}: criteria.{missing[0]} is required with the "
-                             f"{group} criterion", param="project")
+    steady, falling = check_criteria(p.name, crit)
     if falling and "drainable_porosity" not in soil and not (
             "layers" in soil and all("drainable_porosity" in ly for ly in soil["layers"])):
         raise InputError(f"{p.name}: soil.drainable_porosity is required with the falling "
@@ -350,6 +338,32 @@ def load_project(path, *, check_files=True):
                     except InputError as exc:
                         raise InputError(f"{p.name}: {exc}", param="project") from None
     return project
+
+
+def check_criteria(fname, crit):
+    """Check that [criteria] states a whole steady and/or falling criterion.
+
+    Returns ``(steady, falling)``: which of the two criteria ``crit`` gives.
+
+    Raises
+    ------
+    InputError
+        One line naming the file ``fname`` and the missing key.
+    """
+    steady = "recharge" in crit or "water_table_depth" in crit
+    falling = any(k in crit for k in ("initial_depth", "final_depth", "days"))
+    if not steady and not falling:
+        raise InputError(f"{fname}: [criteria] needs recharge and water_table_depth "
+                         "(steady) or initial_depth, final_depth and days (falling), or both",
+                         param="project")
+    for group, keys in (("steady", ("recharge", "water_table_depth")),
+                        ("falling", ("initial_depth", "final_depth", "days"))):
+        given = [k for k in keys if k in crit]
+        if given and len(given) != len(keys):
+            missing = [k for k in keys if k not in crit]
+            raise InputError(f"{fname}: criteria.{missing[0]} is required with the "
+                             f"{group} criterion", param="project")
+    return steady, falling
 
 
 def _cross_checks(fname, out):

@@ -358,7 +358,9 @@ def design_simulation(site, weather, *, spacing, analytic_spacing=None, coeffici
     """
     L = float(spacing)
     narrow, wide = round(L * 2.0 / 3.0, 1), round(L * 1.5, 1)
-    grid = np.unique(np.round(np.r_[np.linspace(0.4, 2.6, 12) * L, narrow, L, wide], 2))
+    # one call covers 0.4 L to 5 L (a time step costs about the same for 3 or 30 spacings)
+    grid = np.unique(np.round(np.r_[np.linspace(0.4, 2.6, 12) * L, np.linspace(3.0, 5.0, 5) * L,
+                                    narrow, L, wide], 2))
     run = simulate_site(site, weather, grid, model=model, season=season,
                         coefficient=coefficient)
     key = [int(np.argmin(np.abs(grid - v))) for v in (narrow, L, wide)]
@@ -366,21 +368,16 @@ def design_simulation(site, weather, *, spacing, analytic_spacing=None, coeffici
     if target is not None:
         tgt = widest_spacing_for_target(site, weather, grid, target=target, basis=basis,
                                         model=model, season=season, run=run, refine=1,
-                                        points=7)
-        if not tgt["bounded"]:                # still within the target: look wider
-            tgt = widest_spacing_for_target(site, weather,
-                                            np.linspace(grid[-1], 3.0 * grid[-1], 8),
-                                            target=target, basis=basis, model=model,
-                                            season=season, refine=1, points=9)
+                                        points=16)
     year, mask = wettest_season(weather, season)
     r = run.result
     sew_key = "sew30_cm_d" if basis == "mean" else "sew30_worst_year_cm_d"
     rows = {name: run.rows[i] for name, i in zip(("narrower", "design", "wider"), key)}
     agreement = _agreement(analytic_spacing, L, tgt, rows["design"], sew_key, basis)
-    # spacings simulated beyond the grid by the target search, up to just past the target
-    reach = 1.15 * max((tgt or {}).get("next_failing_spacing_m") or 0.0, grid[-1])
-    extra = sorted(p for p in (tgt or {}).pop("evaluated", [])
-                   if grid[-1] + 1e-9 < p[0] <= reach)
+    # the curve shown: up to 2.6 L, or to just past the target spacing
+    reach = max(2.6 * L, 1.15 * ((tgt or {}).get("next_failing_spacing_m") or 0.0)) + 1e-9
+    (tgt or {}).pop("evaluated", None)
+    shown = [i for i in range(grid.size) if grid[i] <= reach]
     summary = {
         "model": model,
         "other_model": run.other.model if run.other is not None else None,
@@ -398,7 +395,7 @@ def design_simulation(site, weather, *, spacing, analytic_spacing=None, coeffici
         "curve": [{"spacing_m": row["spacing_m"], "sew30_cm_d": row["sew30_cm_d"],
                    "sew30_worst_year_cm_d": row["sew30_worst_year_cm_d"],
                    "other_sew30_cm_d": row.get("other_model", {}).get("sew30_cm_d")}
-                  for row in run.rows],
+                  for row in (run.rows[i] for i in shown)],
         "target": tgt,
         "agreement": agreement,
         "assumptions": list(ASSUMPTIONS),
@@ -406,11 +403,10 @@ def design_simulation(site, weather, *, spacing, analytic_spacing=None, coeffici
     figures = {
         "dates": weather.dates[mask], "year": year,
         "depths": {float(grid[i]): r.water_table_depth[i, mask] for i in key},
-        "spacings": np.r_[grid, [p[0] for p in extra]],
-        "sew30": [row[sew_key] for row in run.rows] + [p[1] for p in extra],
+        "spacings": grid[shown],
+        "sew30": [run.rows[i][sew_key] for i in shown],
         "other": (("de Zeeuw-Hellinga" if run.other.model == "reservoir" else "Boussinesq"),
-                  grid, [row["other_model"]["sew30_cm_d" if basis == "mean"
-                                            else "sew30_worst_year_cm_d"] for row in run.rows])
+                  [run.rows[i]["other_model"][sew_key] for i in shown])
         if run.other is not None else None,
         "target": target, "basis": basis,
         "label": "Boussinesq" if model == "boussinesq" else "de Zeeuw-Hellinga",

@@ -234,3 +234,18 @@ def test_bad_inputs_are_refused(kw, match):
     args.update(kw)
     with pytest.raises(InputError, match=match):
         boussinesq_simulation(**args)
+
+
+def test_one_call_equals_one_spacing_at_a_time():
+    """Vectorising over spacings changes nothing: each case alone gives the same series."""
+    rain, pet = _weather(13, 400, wet=0.5, mean_mm=14.0)
+    rain[50:53] = 0.06
+    common = dict(rain=rain, pet=pet, k_below=0.4, k_above=0.7, depth_to_barrier=2.0,
+                  drain_radius=0.05, drain_depth=0.9, drainable_porosity=0.05)
+    L = [7.0, 25.0, 70.0]
+    together = boussinesq_simulation(spacing=L, **common)
+    for i, x in enumerate(L):
+        alone = boussinesq_simulation(spacing=[x], **common)
+        np.testing.assert_allclose(alone.water_table_depth[0], together.water_table_depth[i],
+                                   atol=1e-12)
+        np.testing.assert_allclose(alone.drain[0], together.drain[i], atol=1e-14)

@@ -233,11 +233,13 @@ def _as_text(run, target, season, units):
     qu = display_unit("recharge", units)
     au = qu.replace("/d", "/yr")
 
+    nd_amount, nd_rate = (1, 2) if units == "us" else (0, 1)
+
     def amount(v_mm):
-        return f"{float(to_display(v_mm / 1000.0 / yrs, 'recharge', units)):.{1 if units == 'us' else 0}f}"
+        return f"{float(to_display(v_mm / 1000.0 / yrs, 'recharge', units)):.{nd_amount}f}"
 
     def rate(v_mm_d):
-        return f"{float(to_display(v_mm_d / 1000.0, 'recharge', units)):.{2 if units == 'us' else 1}f}"
+        return f"{float(to_display(v_mm_d / 1000.0, 'recharge', units)):.{nd_rate}f}"
 
     k_sew, sew_u = (1 / 2.54, "in·d") if units == "us" else (1.0, "cm·d")
 

@@ -417,6 +417,11 @@ def boussinesq_simulation(*, spacing, rain, pet, k_below, depth_to_barrier, drai
                                 "max_active_set_iterations": sim.max_iter})
 
 
+#: Heights this far below drain level [m] are rounding, not a water table below the
+#: drains (the fast path keeps them; the water balance stays exact).
+_FLOOR_TOLERANCE = 1e-12
+
+
 class _Boussinesq:
     """Implicit finite-volume stepper for all cases at once (private)."""
 
@@ -488,12 +493,15 @@ class _Boussinesq:
         inv_hr = 1.0 / np.where(hr > 0, hr, np.inf)
         dtw_half = dtw / half[:, None]
         dt_w0 = dt * w0 / half
-        cd0 = 1.0 / half
+        gtsv = self.gtsv
+        hs_min = float(hs.min())
+        flux = np.zeros((n, T))                   # dt x flow through the first face [m2/m]
         for t in range(T):
             r, p = rain_rate[t], pet_rate[t]
             direct = min(r, p)                    # ET met from the day's rain first
             r, p = r - direct, p - direct
             et[:, t] = direct * dt * substeps
+            drain[:, t] = dt_w0 * r * substeps    # rain on the half cell over the drain
             if fast:
                 pin = p * inv_hr                  # in the band ET = pin h
                 dtw_pin = dtw * pin
@@ -505,27 +513,31 @@ class _Boussinesq:
                     ctl = a0 + a1 * (h + hb[:, :-1])
                     cl[:, :M] = ctl
                     ctr = cl[:, 1:]
-                    off = -ctr.ravel()[:-1]
+                    off = -ctr.ravel()[:-1]          # a new array (ravel may be a view)
                     diag_t = ctl + ctr + wmu
                     rhs_t = wmu * h + dtw_r
-                    band = h < hr
+                    new_band = h < hr
                     for _k in range(8):        # ET = p min(1, h/hr) at the new state
-                        sol = self.gtsv(off, (diag_t + band * dtw_pin).ravel(), off,
-                                        (rhs_t + band * dtw_p).ravel())[3]
+                        band = new_band        # the band this solve uses (and the ET sum)
+                        # the solver may overwrite its inputs: give it fresh arrays
+                        sol = gtsv(off.copy(), (diag_t + band * dtw_pin).ravel(), off.copy(),
+                                   (rhs_t + band * dtw_p).ravel(), 1, 1, 1, 1)[3]
                         h_new = sol.reshape(n, M)
                         if p == 0.0:
                             break
                         new_band = h_new < hr
                         if (new_band == band).all():
                             break
-                        band = new_band
-                    if (h_new - hs).max() <= 0.0 and h_new.min() >= 0.0:
-                        drain[:, t] += cd0 * ctl[:, 0] * h_new[:, 0] + dt_w0 * r
+                    # bounds: the surface, and drain level (rounding below it, a few
+                    # 1e-18 m where the water table rests on the drains, is let stand)
+                    if (h_new.max() <= hs_min or (h_new - hs).max() <= 0.0) \
+                            and h_new.min() >= -_FLOOR_TOLERANCE:
+                        flux[:, t] += ctl[:, 0] * h_new[:, 0]
                         et[:, t] += ((p + band * (pin * h_new - p)) * dtw_half).sum(axis=1)
                         hb[:, 1:] = h_new
                         continue
                 h_new, q_d, ro, e = self._step(h.copy(), r, p)
-                drain[:, t] += q_d / half
+                flux[:, t] += q_d
                 runoff[:, t] += ro / half
                 et[:, t] += e / half
                 hb[:, 1:] = h_new
@@ -535,12 +547,13 @@ class _Boussinesq:
             else:
                 storage[:, t + 1] = (self.storage_of(hb[:, 1:]) * w).sum(axis=1)
         storage[:, 1:] /= half[:, None]
+        drain += flux / half[:, None]
         return hb[:, 1:].copy(), (self.zd[:, None] - h_mid, drain, runoff, et, storage)
 
     def _step(self, h, r, p):
         """One implicit step with the layered storage and the bounds (active set)."""
         n, M, dt = self.n, self.M, self.dt
-        w, w0, dx = self.w, self.w0, self.dx
+        w, dx = self.w, self.dx
         hs, hr = self.hs, self.hr[:, None]
         const_mu = self.prof is None
         cdt = (dt / dx)[:, None]
@@ -585,7 +598,7 @@ class _Boussinesq:
             h_new = self.gtsv(dl, diag.ravel(), du, rhs.ravel())[3].reshape(n, M)
             changed = False
             over = (h_new > hs) & ~pinned
-            under = (h_new < 0.0) & ~pinned
+            under = (h_new < -_FLOOR_TOLERANCE) & ~pinned
             if over.any() or under.any():
                 pinned_hi |= over
                 pinned_lo |= under
@@ -616,9 +629,10 @@ class _Boussinesq:
             exc = self._excess(h, h_old, s_old, tl, r, e_imp, e_exp, cdt)
             ro_step = np.where(pinned_hi, exc, 0.0).sum(axis=1)
             et_step = et_step + np.where(pinned_lo, exc, 0.0).sum(axis=1)
-        # drain: flux through the first face plus the rain on the drain's half cell
-        q_drain = dt * (tl[:, 0] * h[:, 0] / dx + w0 * r)
-        return h, q_drain, ro_step, et_step
+        # drain: the flux through the first face (the rain on the drain's half cell is
+        # added by the caller)
+        q_face = dt * tl[:, 0] * h[:, 0] / dx
+        return h, q_face, ro_step, et_step
 
     def _excess(self, h, h_old, s_old, tl, r, e_imp, e_exp, cdt):
         """Per-cell water arriving in the step that the cell did not store [m2 per m]:
