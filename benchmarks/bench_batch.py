@@ -210,7 +210,7 @@ def main():
         import sys
 
         sys.path.insert(0, str(Path(__file__).parent))
-        from bench_spacing import _write_section
+        from bench_spacing import write_section as _write_section
 
         _write_section(text, "## Many fields at once")
 

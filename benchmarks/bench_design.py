@@ -54,7 +54,7 @@ def main():
     print(text)
     if args.write:
         sys.path.insert(0, str(Path(__file__).parent))
-        from bench_spacing import _write_section
+        from bench_spacing import write_section as _write_section
 
         _write_section(text, "## Demo design")
 

@@ -114,7 +114,7 @@ def main():
     text = "\n".join(lines)
     print(text)
     if args.write:
-        from bench_spacing import _write_section
+        from bench_spacing import write_section as _write_section
 
         _write_section(text, "## Field layout")
 
