@@ -22,7 +22,6 @@ import json
 import math
 import os
 import shutil
-import tomllib
 import warnings
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -85,15 +84,7 @@ def load_batch_settings(path):
     """
     from . import project as pj
 
-    p = Path(path)
-    try:
-        raw = tomllib.loads(p.read_text(encoding="utf-8"))
-    except FileNotFoundError:
-        raise InputError(f"project file not found: {path}", param="project") from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(f"cannot read project file {path}: {exc}", param="project") from None
-    except tomllib.TOMLDecodeError as exc:
-        raise InputError(f"{p.name}: not valid TOML: {exc}", param="project") from None
+    p, raw = pj.read_project_toml(path)
     if all(s in raw for s in ("site", "fields", "soil")):
         proj = pj.load_project(p)          # a whole project: its own checks apply
         out = {s: getattr(proj, s) for s in ("criteria", "drains", "soil", "layout", "pipes")}

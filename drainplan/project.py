@@ -242,6 +242,27 @@ def _convert(section, key, kind, value, base):
     return parse_quantity(value, kind, name=name)
 
 
+def read_project_toml(path):
+    """Read a project file's TOML: ``(Path, dict)``, unchecked.
+
+    Raises
+    ------
+    InputError
+        One line: the file is missing or unreadable, or the line of a TOML error.
+    """
+    p = Path(path)
+    try:
+        text = p.read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise InputError(f"project file not found: {path}", param="project") from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise InputError(f"cannot read project file {path}: {exc}", param="project") from None
+    try:
+        return p, tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(f"{p.name}: not valid TOML: {exc}", param="project") from None
+
+
 def load_project(path, *, check_files=True):
     """Read and validate a project file.
 
@@ -255,17 +276,7 @@ def load_project(path, *, check_files=True):
     InputError
         One line naming the file and the key (or the line of a TOML error).
     """
-    p = Path(path)
-    try:
-        text = p.read_text(encoding="utf-8")
-    except FileNotFoundError:
-        raise InputError(f"project file not found: {path}", param="project") from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(f"cannot read project file {path}: {exc}", param="project") from None
-    try:
-        raw = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise InputError(f"{p.name}: not valid TOML: {exc}", param="project") from None
+    p, raw = read_project_toml(path)
     base = p.parent.resolve()
     out = {}
     for section, content in raw.items():
