@@ -47,8 +47,8 @@ def main():
         "| what | figure | target |",
         "| --- | --- | --- |",
         f"| `drainplan design demo_fields/project.toml` (all outputs, imports included) | "
-        f"{t_design:.2f} s | under 5 s |",
-        f"| `drainplan --help` | {t_help:.3f} s | under 0.3 s |",
+        f"{t_design:.2f} s | under 3 s |",
+        f"| `drainplan --help` | {t_help:.3f} s | under 0.2 s |",
     ]
     text = "\n".join(lines)
     print(text)

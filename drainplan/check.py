@@ -719,7 +719,9 @@ def check_proposal(project, proposal, *, units=None, progress=None, k_cv=None,
 
     # --- pipes: sizes, series
     material = pp.get("material", "corrugated")
-    series_pref = pp.get("series", "metric")
+    from .design import project_pipe_series
+
+    series_pref = project_pipe_series(p)
     series_list = [pl.pipe_series(material, s, path=pp.get("sizes"))
                    for s in ([series_pref] + [x for x in ("metric", "inch") if x != series_pref])
                    if _has_series(pl, material, s, pp.get("sizes"))]

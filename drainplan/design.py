@@ -198,6 +198,13 @@ def _f(v, nd=3):
     return round(v, nd) if math.isfinite(v) else None
 
 
+def project_pipe_series(project):
+    """The pipe size series of a project: as given, else inch sizes on a US-units
+    report and metric sizes otherwise."""
+    return project.pipes.get("series") or (
+        "inch" if project.report.get("units", "metric") == "us" else "metric")
+
+
 def design(project, *, progress=None):
     """Run the whole design for a loaded project.
 
@@ -317,7 +324,7 @@ def design(project, *, progress=None):
                          "recharge is given", param="project")
     popts = PipeOptions(
         coefficient=coef, material=pp.get("material", "corrugated"),
-        series=pp.get("series", "metric"), method=pp.get("capacity_method", "manning"),
+        series=project_pipe_series(p), method=pp.get("capacity_method", "manning"),
         capacity_factor=pp.get("capacity_factor", 0.75), drain_depth=depth,
         main_depth=pp.get("main_depth"), min_grade=pp.get("min_grade", 0.001),
         max_grade=pp.get("max_grade", 0.05), min_cover=pp.get("min_cover", 0.6),
@@ -704,7 +711,7 @@ def _summary(p, table, depth, spacing, raw_spacing, governing, method, compariso
         "pipes": {"capacity_method": p.pipes.get("capacity_method", "manning"),
                   "material": p.pipes.get("material", "corrugated"),
                   "capacity_factor": _f(p.pipes.get("capacity_factor", 0.75), 4),
-                  "series": p.pipes.get("series", "metric")},
+                  "series": project_pipe_series(p)},
     }
     outlet_flow = {}          # per field, as the total: the flow of its laterals
     for row in pd.reaches:

@@ -792,35 +792,7 @@ def _simulation_page(sim, figures_png, f, P, width):
     return out
 
 
-#: Metric quantities inside notes written by lower layers, and their display roles with
-#: the factor from the written unit to the stored SI unit.
-_NOTE_UNITS = {"m/s": ("velocity", 1.0), "mm/d": ("recharge", 1e-3), "m/d": ("recharge", 1.0),
-               "L/s": ("flow", 1.0), "ha": ("area", 1.0), "mm": ("radius", 1e-3),
-               "cm": ("radius", 1e-2), "km": ("length", 1e3), "m": ("length", 1.0)}
-
-
-def _text_in_units(text, units):
-    """Notes from the layout, pipe and spacing layers are written in SI; on a US sheet their
-    quantities ('2.00 m', '1.50 m/s', '1070 m') are shown in US units, same precision."""
-    import re
-
-    if units != "us" or not text:
-        return text
-    from .units import display_unit, to_display
-
-    pat = re.compile(r"(?<![\w.])(-?\d+(?:\.\d+)?)\s?(m/s|mm/d|m/d|L/s|ha|mm|cm|km|m)"
-                     r"(?![\w/²³])")
-
-    def sub(mt):
-        num, unit = mt.group(1), mt.group(2)
-        role, to_si = _NOTE_UNITS[unit]
-        nd = len(num.split(".")[1]) if "." in num else 0
-        value = float(to_display(float(num) * to_si, role, units))
-        if role == "recharge":
-            nd = max(nd, 2)
-        return f"{value:.{nd}f} {display_unit(role, units)}"
-
-    return pat.sub(sub, str(text))
+from .units import text_in_units as _text_in_units  # noqa: E402  (notes in US units)
 
 
 def _type_label(name, units):

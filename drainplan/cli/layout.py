@@ -8,7 +8,7 @@ from pathlib import Path
 import click
 
 from ..errors import InputError
-from ..units import display_unit, show, to_display
+from ..units import display_unit, show, text_in_units, to_display
 from .._validate import check_order, check_point, check_quantity
 from .options import Number, checked, json_option, units_option
 
@@ -154,7 +154,7 @@ def layout(fields, spacing, direction, setback, output, layer, id_field, crs, wo
         dem_path=dem_path))
     write_layout(plan, out, plot_path=plot_path, geojson_dir=geojson_dir, overwrite=overwrite)
     for line in plan.reports:
-        click.echo(f"drainplan: note: {line}", err=True)
+        click.echo(f"drainplan: note: {text_in_units(line, units)}", err=True)
     if as_json:
         click.echo(json.dumps(layout_summary(plan, out), indent=2))
     else:
@@ -264,7 +264,7 @@ def _text(plan, out, plot_path, units="metric"):
     t = plan.totals
     lines.append(f"connectors (non-perforated): {show(t['connector_length_m'], 'length', units, 0)}")
     lines.append(f"written: {out}" + (f", {plot_path}" if plot_path else ""))
-    lines += ["Notes"] + [f"  - {n}" for n in plan.notes]
+    lines += ["Notes"] + [f"  - {text_in_units(n, units)}" for n in plan.notes]
     lines.append("  - Locate buried utilities before trenching and check setbacks (wells, "
                   "septic systems, wetlands) against local codes.")
     return "\n".join(lines)

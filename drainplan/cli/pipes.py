@@ -8,7 +8,7 @@ from pathlib import Path
 import click
 
 from ..errors import InputError
-from ..units import show
+from ..units import show, text_in_units
 from .._validate import check_order
 from .options import LENGTH, Number, checked, json_option, units_option
 
@@ -29,8 +29,8 @@ from .options import LENGTH, Number, checked, json_option, units_option
               help="GeoTIFF DEM instead of survey points (needs drainplan[dem]).")
 @click.option("--material", type=click.Choice(["corrugated", "smooth", "clay"]),
               default="corrugated", show_default=True, help="Pipe material.")
-@click.option("--series", type=click.Choice(["metric", "inch"]), default="metric",
-              show_default=True, help="Standard size series.")
+@click.option("--series", type=click.Choice(["metric", "inch"]), default=None,
+              help="Standard size series [default: inch with --units us, else metric].")
 @click.option("--sizes", "sizes_path", type=click.Path(dir_okay=False),
               help="An edited copy of templates/pipe_sizes.csv.")
 @click.option("--capacity-method", type=click.Choice(["manning", "power-law"]),
@@ -115,6 +115,8 @@ def pipes(layout_path, coefficient, survey_path, survey_crs, survey_z_unit, dem_
                 high_name="--max-grade")
     check_order("min_velocity", min_velocity, "max_velocity", max_velocity,
                 low_name="--min-velocity", high_name="--max-velocity")
+    if series is None:
+        series = "inch" if units == "us" else "metric"
     opts = PipeOptions(coefficient=coefficient, material=material, series=series,
                        method=capacity_method, capacity_factor=capacity_factor,
                        drain_depth=drain_depth, main_depth=main_depth,
@@ -203,7 +205,7 @@ def _text(d, output, units="metric"):
     if d.violations:
         lines.append(f"{len(d.violations)} problem(s), by kind (each place is in the "
                      "schedule's warnings column and the GeoPackage):")
-        lines += [f"  - {g}" for g in d.problem_summary]
+        lines += [f"  - {text_in_units(g, units)}" for g in d.problem_summary]
     for n in d.notes:
-        lines.append(f"note: {n}")
+        lines.append(f"note: {text_in_units(n, units)}")
     return "\n".join(lines)
