@@ -302,3 +302,19 @@ def test_herringbone():
     assert_allclose(steps, np.round(steps), atol=1e-6)
     per, tot = lay.quantities([field.area])
     assert per["laterals"][0] == lay.junctions.size
+
+
+def test_zero_width_spike_gives_no_stray_lateral():
+    """Regression (found by the property test with a random seed): a boundary with a
+    zero-width spike (vertices 1e-262 m apart across it) must not yield a lateral
+    piece of near-zero length at the wrong bearing. Checked against the same
+    geometric properties as the property test (common practice: laterals parallel
+    at the bearing, whole multiples of the spacing apart, inside the field)."""
+    poly = shapely.Polygon([(169.5, 0.0), (226.0, 1.762e-262), (169.5, 2.375e-43),
+                            (122.108, 190.172), (-94.04, 120.0), (-100.0, -50.0)])
+    for bearing in (1.0, 0.5, 2.0):
+        lay = layout_fields([poly], LayoutOptions(spacing=9.0, direction=bearing,
+                                                  setback=0.0, min_length=0.0))
+        assert lay.laterals.size > 10
+        assert np.all(shapely.length(lay.laterals) >= 1e-6)
+        _check_layout(poly, lay, bearing, 9.0)

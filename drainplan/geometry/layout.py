@@ -382,6 +382,9 @@ def layout_fields(fields, options, *, exclusions=None, exclusion_setbacks=None,
 
     pieces, grid = scan_laterals(sub_region, sub_bearing, L, offset=options.offset,
                                  n_fields=m)
+    # pieces shorter than a micrometre are where a scan line grazes a vertex or a
+    # zero-width spike of the boundary: not laterals, and not counted as dropped
+    pieces = pieces.subset(pieces.length >= 1e-6)
     short = pieces.length < options.min_length
     dropped_count = np.bincount(sub_owner[pieces.field[short]], minlength=n)
     dropped_length = np.bincount(sub_owner[pieces.field[short]],
