@@ -797,27 +797,19 @@ def check_proposal(project, proposal, *, units=None, progress=None, k_cv=None,
         notes.append(f"no elevations and no proposed grade: capacities at the minimum grade "
                      f"{min_grade:.2%}; grade and velocity not checked")
 
-    def capacity(d, s, uniform):
+    def full_capacity(d, s, uniform):
         d, s = np.asarray(d, float), np.maximum(np.asarray(s, float), 1e-9)
-        if cap_method == "manning":
-            c = pl.manning_full_capacity(d, s, pl.manning_n(material, d))
-        else:
-            wall = "smooth" if material in ("smooth", "clay") else "corrugated"
-            c = pl.power_law_capacity(d, s, wall=wall, uniform_inflow=uniform)
-        return np.asarray(c, float) * cap_factor
+        return np.asarray(pl.pipe_capacity(d, s, material, method=cap_method,
+                                           uniform_inflow=uniform), float)
+
+    def capacity(d, s, uniform):
+        return full_capacity(d, s, uniform) * cap_factor
 
     def full_velocity(d, s):
-        d, s = np.asarray(d, float), np.maximum(np.asarray(s, float), 1e-9)
-        if cap_method == "manning":
-            c = pl.manning_full_capacity(d, s, pl.manning_n(material, d))
-        else:
-            wall = "smooth" if material in ("smooth", "clay") else "corrugated"
-            c = pl.power_law_capacity(d, s, wall=wall, uniform_inflow=False)
-        return np.asarray(c, float) / (np.pi * d * d / 4.0)
+        return pl.full_velocity(full_capacity(d, s, False), np.asarray(d, float))
 
     def outside(d):
-        # corrugated walls add about 15 % to the inside diameter, others 10 % [PRACTICE]
-        return d * (1.15 if material == "corrugated" else 1.1)
+        return pl.outside_diameter(d, material)
 
     # --- flows
     strip_area = np.where(inside, geo.strip_area, 0.0)

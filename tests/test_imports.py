@@ -55,8 +55,8 @@ LAYERS = [
     {"errors", "units", "_solve", "_validate", "_templates", "_text"},
     {"spacing", "soil", "auger_hole", "pedotransfer", "uncertainty"},
     {"geometry", "terrain", "soilmap"},
-    {"network", "pipes", "pipe_design"},          # pipes, pipe_design: aliases of network
-    {"gisio", "layout_plan", "pipes_plan", "network.plan", "weather", "simulation_plan"},
+    {"network"},
+    {"gisio", "layout_plan", "network.plan", "weather", "simulation_plan"},
     {"project", "design", "check", "field_tests", "batch", "engines"},
     {"plots", "sheet", "outputs", "check_sheet", "batch_map"},
     {"cli", "__main__"},

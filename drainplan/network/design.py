@@ -39,8 +39,8 @@ import numpy as np
 
 from ..errors import InputError
 from .hydraulics import (CAPACITY_METHODS, DEFAULT_CAPACITY_FACTOR, POWER_LAW_RANGE,
-                         design_flow, manning_full_capacity, manning_n, pipe_series,
-                         power_law_capacity, power_law_outside, select_size)
+                         design_flow, manning_n, outside_diameter, pipe_capacity, pipe_series,
+                         power_law_outside, select_size)
 
 __all__ = ["PipeOptions", "LateralRun", "Carrier", "PipeDesign", "design_network",
            "design_pipes", "group_problems", "JUNCTION_RULE"]
@@ -799,18 +799,15 @@ def _size_rows(rows, series, options, violations, *, uniform_inflow, taper=False
 
 
 def _capacity(d, grade, series, options, uniform_inflow):
-    if options.method == "manning":
-        cap = manning_full_capacity(d, grade, manning_n(series.material, d))
-    else:
-        wall = "smooth" if series.material in ("smooth", "clay") else "corrugated"
-        cap = power_law_capacity(d, grade, wall=wall, uniform_inflow=uniform_inflow)
+    cap = pipe_capacity(d, grade, series.material, method=options.method,
+                        uniform_inflow=uniform_inflow)
     return np.asarray(cap, float) * options.capacity_factor
 
 
 def _outside(row, series):
-    """Outside diameter estimate [m]: corrugated walls add about 15 % [PRACTICE]."""
-    d = (row.get("inner_diameter_mm") or 100.0) / 1000.0
-    return d * (1.15 if series.material == "corrugated" else 1.1)
+    """Outside diameter estimate of a reach's pipe [m]."""
+    return float(outside_diameter((row.get("inner_diameter_mm") or 100.0) / 1000.0,
+                                  series.material))
 
 
 def _velocity_checks(row, options, violations):

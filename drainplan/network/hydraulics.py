@@ -19,7 +19,7 @@ from .._validate import as_float_arrays, require_positive, scalar_or_array
 __all__ = ["design_flow", "manning_full_capacity", "manning_diameter", "power_law_capacity",
            "full_velocity", "PipeSeries", "pipe_series", "manning_n", "select_size",
            "MATERIALS", "CAPACITY_METHODS", "DEFAULT_CAPACITY_FACTOR", "VELOCITY_LIMITS",
-           "POWER_LAW_RANGE", "power_law_outside"]
+           "POWER_LAW_RANGE", "power_law_outside", "pipe_capacity", "outside_diameter"]
 
 SECONDS_PER_DAY = 86400.0
 MATERIALS = ("corrugated", "smooth", "clay")
@@ -184,6 +184,47 @@ def full_velocity(flow, diameter):
     return scalar_or_array(Q / (np.pi * d * d / 4.0))
 
 
+def _wall(material):
+    return "smooth" if material in ("smooth", "clay") else "corrugated"
+
+
+def pipe_capacity(diameter, grade, material, *, method="manning", uniform_inflow=False):
+    """Full-flow capacity of a pipe by the chosen method [m3/s].
+
+    Manning's equation with n by material and size (:func:`manning_n`), or the
+    drain-pipe power law for the material's wall (:func:`power_law_capacity`).
+    No sediment allowance: multiply by the capacity factor for the usable share.
+
+    Parameters
+    ----------
+    diameter : array_like
+        Inside diameter [m].
+    grade : array_like
+        Hydraulic grade [m/m].
+    material : str
+        One of :data:`MATERIALS`.
+    method : {"manning", "power-law"}
+    uniform_inflow : bool
+        Power law only: inflow along the pipe (a lateral) rather than at its head.
+
+    Examples
+    --------
+    >>> round(float(pipe_capacity(0.2303, 0.002, "corrugated")) * 1000, 1) > 0
+    True
+    """
+    if method == "manning":
+        d = np.asarray(diameter, float)
+        return manning_full_capacity(d, grade, manning_n(material, d))
+    return power_law_capacity(diameter, grade, wall=_wall(material),
+                              uniform_inflow=uniform_inflow)
+
+
+def outside_diameter(diameter, material):
+    """Outside diameter estimate from the inside diameter [m]: corrugated walls add
+    about 15 %, other walls about 10 % [PRACTICE]."""
+    return np.asarray(diameter, float) * (1.15 if material == "corrugated" else 1.1)
+
+
 @dataclass(frozen=True)
 class PipeSeries:
     """Nominal sizes of one material, smallest first."""
@@ -322,14 +363,9 @@ def select_size(flow, grade, series, *, method="manning", uniform_inflow=False,
         raise InputError("capacity factor must lie in (0, 1]", param="capacity_factor")
     Q, s = as_float_arrays(flow, grade)
     d = series.inner_diameter
-    if method == "manning":
-        n = manning_n(series.material, d)
-        cap = manning_full_capacity(d[None, :], s.ravel()[:, None], n[None, :])
-    else:
-        wall = "smooth" if series.material in ("smooth", "clay") else "corrugated"
-        cap = power_law_capacity(d[None, :], s.ravel()[:, None], wall=wall,
-                                 uniform_inflow=uniform_inflow)
-    cap = np.asarray(cap) * capacity_factor
+    cap = np.asarray(pipe_capacity(d[None, :], s.ravel()[:, None], series.material,
+                                   method=method, uniform_inflow=uniform_inflow))
+    cap = cap * capacity_factor
     ok = cap >= Q.ravel()[:, None]
     idx = np.where(ok.any(axis=1), ok.argmax(axis=1), -1)
     chosen = np.where(idx >= 0, cap[np.arange(idx.size), np.maximum(idx, 0)], np.nan)
