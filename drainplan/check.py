@@ -33,7 +33,6 @@ from __future__ import annotations
 import dataclasses
 import difflib
 import math
-import tomllib
 import warnings
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -249,12 +248,9 @@ def read_proposal(path, *, crs=None):
 def _read_toml(p):
     from .spacing.drain_radius import drain_radius_table, effective_radius
 
-    try:
-        raw = tomllib.loads(p.read_text(encoding="utf-8"))
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(f"cannot read proposal file {p}: {exc}", param="proposal") from None
-    except tomllib.TOMLDecodeError as exc:
-        raise InputError(f"{p.name}: not valid TOML: {exc}", param="proposal") from None
+    from ._textfile import read_toml_file
+
+    raw = read_toml_file(p, what="proposal file", param="proposal")
     if set(raw) != {"proposal"} or not isinstance(raw.get("proposal"), dict):
         raise InputError(f"{p.name}: a proposal file holds one [proposal] section of "
                          f"numbers ({', '.join(PROPOSAL_KEYS)})", param="proposal")
@@ -952,13 +948,13 @@ def check_proposal(project, proposal, *, units=None, progress=None, k_cv=None,
                f"{cap_factor:.0%} of capacity usable; Q = DC x A" if cap_method == "manning"
                else "drain-pipe power laws (Cavelaars et al. 1994, ILRI Publ. 16 ch. 21), "
                f"{cap_factor:.0%} of capacity usable; Q = DC x A")
-    lat_ok_pipe = add_check(
+    add_check(
         "lateral capacity", "pipe", lat_cap * 1000, lat_flow * 1000, lat_ids, False, lat_fail,
         lambda w, ok, m: verdict_text(f"lateral {lat_size[w][0]} carries",
                                       ok, q_txt(lat_cap[w]), q_txt(lat_flow[w]), m,
                                       at_most=False),
         man_src, mask=inside, unit="L/s")
-    main_res = add_check(
+    add_check(
         "main capacity", "pipe", main_cap * 1000, main_flow * 1000, main_ids, False, main_fail,
         lambda w, ok, m: verdict_text(f"main {main_size[w][0]} carries",
                                       ok, q_txt(main_cap[w]), q_txt(main_flow[w]), m,

@@ -12,7 +12,6 @@ from __future__ import annotations
 
 import io
 import json
-from pathlib import Path
 
 __all__ = ["compliance_map", "build_check_sheet", "write_check_outputs", "CHECK_FILES"]
 

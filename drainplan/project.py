@@ -10,7 +10,6 @@ from the project file's folder.
 from __future__ import annotations
 
 import difflib
-import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -250,17 +249,9 @@ def read_project_toml(path):
     InputError
         One line: the file is missing or unreadable, or the line of a TOML error.
     """
-    p = Path(path)
-    try:
-        text = p.read_text(encoding="utf-8")
-    except FileNotFoundError:
-        raise InputError(f"project file not found: {path}", param="project") from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(f"cannot read project file {path}: {exc}", param="project") from None
-    try:
-        return p, tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise InputError(f"{p.name}: not valid TOML: {exc}", param="project") from None
+    from ._textfile import read_toml_file
+
+    return Path(path), read_toml_file(path, what="project file", param="project")
 
 
 def load_project(path, *, check_files=True):

@@ -304,14 +304,10 @@ def parse_weather(text, *, name="weather", latitude=None):
 
 def read_weather(path, *, latitude=None):
     """Read a daily weather CSV file (see :func:`parse_weather`)."""
-    p = Path(path)
-    try:
-        text = p.read_text(encoding="utf-8-sig")
-    except FileNotFoundError:
-        raise InputError(f"weather file not found: {path}", param="weather") from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(f"cannot read weather file {path}: {exc}", param="weather") from None
-    return parse_weather(text, name=p.name, latitude=latitude)
+    from ._textfile import read_text_file
+
+    text = read_text_file(path, what="weather file", param="weather", encoding="utf-8-sig")
+    return parse_weather(text, name=Path(path).name, latitude=latitude)
 
 
 def parse_season(text):

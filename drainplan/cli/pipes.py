@@ -10,7 +10,7 @@ import click
 from ..errors import InputError
 from ..units import show, text_in_units
 from .._validate import check_order
-from .options import LENGTH, Number, checked, json_option, units_option
+from .options import Number, checked, json_option, units_option
 
 
 @click.command(short_help="Size and grade the pipes of a layout.")

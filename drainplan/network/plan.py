@@ -81,8 +81,6 @@ def plan_pipes(inp: PipesInputs) -> PipesPlan:
 
 def pipes_from_layers(frames, work_crs, out_crs, inp):
     """Design the pipes of layout layers (GeoDataFrames in any CRS)."""
-    import shapely
-
     from ..gisio import read_dem, read_survey
     from ..terrain import PointSurface, RasterSurface, check_coverage
 
