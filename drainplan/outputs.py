@@ -24,6 +24,7 @@ import shutil
 import tempfile
 from pathlib import Path
 
+from . import _background as background
 from .errors import InputError
 
 __all__ = ["write_design_outputs", "write_output_folder", "check_output_folder",
@@ -181,15 +182,7 @@ def write_design_outputs(result, outdir, *, overwrite=False, progress=None):
     project = result.project
     inputs = project.input_files() if hasattr(project, "input_files") else ()
 
-    def write_files(tmp):
-        say("figures")
-        figs = render_figures(result)
-        say("design sheet")
-        rep = project.report
-        build_sheet(result.summary, figs, str(tmp / "design_sheet.pdf"),
-                    units=rep.get("units", "metric"), paper=rep.get("paper", "A4"),
-                    logo=rep.get("logo"))
-        say("GIS layers and schedule")
+    def write_data(tmp):
         layers = dict(result.layout_plan.layers)
         layers.update(result.pipes_plan.layers)
         layers_writer(layers)(str(tmp / "design.gpkg"))
@@ -198,7 +191,21 @@ def write_design_outputs(result, outdir, *, overwrite=False, progress=None):
         (tmp / "summary.json").write_text(
             json.dumps(_clean(result.summary), indent=2, sort_keys=True) + "\n",
             encoding="utf-8")
-        (tmp / "plan.png").write_bytes(figs["plan"])
+
+    def write_files(tmp):
+        # the GIS layers, schedule and summary need nothing from the figures or the
+        # sheet: written beside them (in a second process where a core is free)
+        with background.start(write_data, tmp) as data:
+            say("figures")
+            figs = render_figures(result)
+            say("design sheet")
+            rep = project.report
+            build_sheet(result.summary, figs, str(tmp / "design_sheet.pdf"),
+                        units=rep.get("units", "metric"), paper=rep.get("paper", "A4"),
+                        logo=rep.get("logo"))
+            (tmp / "plan.png").write_bytes(figs["plan"])
+            say("GIS layers and schedule")
+            data.result()
 
     return write_output_folder(outdir, write_files, names=(*OUTPUT_FILES, "plan.png"),
                                overwrite=overwrite, inputs=inputs)
