@@ -636,12 +636,16 @@ def layers_writer(layers):
     import pyogrio
 
     def writer(tmp):
-        pyogrio.set_gdal_config_options({"OGR_CURRENT_DATE": FIXED_TIMESTAMP})
+        # SQLite need not wait for the disk after each layer: the file is a temporary
+        # one, renamed into place only when complete
+        pyogrio.set_gdal_config_options({"OGR_CURRENT_DATE": FIXED_TIMESTAMP,
+                                         "OGR_SQLITE_SYNCHRONOUS": "OFF"})
         try:
             for name, gdf in layers.items():
                 _write_layer(gdf, tmp, name, "GPKG", append=os.path.exists(tmp))
         finally:
-            pyogrio.set_gdal_config_options({"OGR_CURRENT_DATE": None})
+            pyogrio.set_gdal_config_options({"OGR_CURRENT_DATE": None,
+                                             "OGR_SQLITE_SYNCHRONOUS": None})
 
     return writer
 
