@@ -9,9 +9,10 @@ terminal of its own and never returns into the caller's code (it leaves with
 ``os._exit``).
 
 It runs the piece in this process instead (when the result is asked for) where a
-fork is unavailable or unsafe: no ``os.fork`` (Windows), one usable core, more
-than one thread in this process (a fork copies only the calling thread), or
-``DRAINPLAN_BACKGROUND=0`` in the environment. Either way the numbers are the same:
+fork is unavailable or unsafe: no ``os.fork`` (Windows), one usable core, another
+thread in this process (a fork copies only the calling thread; the few threads
+known to be fork-safe are not counted), or ``DRAINPLAN_BACKGROUND=0`` in the
+environment. Either way the numbers are the same:
 the same code runs on the same inputs.
 """
 
@@ -25,13 +26,29 @@ import warnings
 __all__ = ["start", "Task", "available"]
 
 
+#: Threads a fork is known to be safe with: jemalloc's background thread (started by
+#: pyarrow, which pandas loads); jemalloc re-initialises it in the child through its
+#: own fork handlers.
+FORK_SAFE_THREADS = ("jemalloc_bg_thd",)
+
+
 def _threads():
+    """Threads of this process, those in :data:`FORK_SAFE_THREADS` not counted."""
     try:
-        return len(os.listdir("/proc/self/task"))
+        tasks = os.listdir("/proc/self/task")
     except OSError:
         import threading
 
         return threading.active_count()
+    n = 0
+    for tid in tasks:
+        try:
+            with open(f"/proc/self/task/{tid}/comm") as fh:
+                name = fh.read().strip()
+        except OSError:                 # a thread that just ended
+            continue
+        n += name not in FORK_SAFE_THREADS
+    return n
 
 
 def available():
@@ -87,7 +104,9 @@ class Task:
                 stream.flush()
             except Exception:                       # a closed or odd stream: nothing to flush
                 pass
-        pid = os.fork()
+        with warnings.catch_warnings():             # threads known to be fork-safe only
+            warnings.simplefilter("ignore", DeprecationWarning)
+            pid = os.fork()
         if pid == 0:                                # the child
             os.close(read_fd)
             self._child(write_fd)
