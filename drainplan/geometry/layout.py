@@ -20,7 +20,8 @@ import shapely
 
 from ..errors import InputError
 from .fields import drainable_regions, long_axis_bearing
-from .laterals import LateralSet, edge_crossings, frame_axes, polygon_edges, scan_laterals
+from .laterals import (LateralSet, edge_crossings, frame_axes, order_by_group, polygon_edges,
+                       scan_laterals)
 
 __all__ = ["LayoutOptions", "Layout", "layout_fields", "COMPASS"]
 
@@ -154,12 +155,18 @@ class Layout:
 
 def _first_of_runs(field, line, side):
     """Index of the first piece of each lateral run (field, line, side), runs in
-    (field, line, side) order: one stable sort, as ``numpy.unique(..., axis=0,
-    return_index=True)`` on the stacked keys."""
-    order = np.lexsort((side, line, field))
-    f, ln, sd = field[order], line[order], side[order]
-    new = np.r_[True, (f[1:] != f[:-1]) | (ln[1:] != ln[:-1]) | (sd[1:] != sd[:-1])]
-    return order[new]
+    (field, line, side) order, as ``numpy.unique(..., axis=0, return_index=True)`` on
+    the stacked keys: one stable sort of a combined integer key."""
+    n_line = int(line.max()) + 1 if line.size else 1
+    if line.size and (line.min() < 0 or (int(field.max()) + 1) * n_line >= 2 ** 61):
+        order = np.lexsort((side, line, field))
+        f, ln, sd = field[order], line[order], side[order]
+        new = np.r_[True, (f[1:] != f[:-1]) | (ln[1:] != ln[:-1]) | (sd[1:] != sd[:-1])]
+        return order[new]
+    key = (field.astype(np.int64) * n_line + line) * 2 + (side > 0)
+    order = np.argsort(key, kind="stable")
+    k = key[order]
+    return order[np.r_[True, k[1:] != k[:-1]]]
 
 
 def _bearings(fields, direction):
@@ -675,7 +682,7 @@ def _connect(pieces, grid, mains, fields, zones, features, cross_setbacks):
     near = np.where(side < 0, pieces.t1, pieces.t0)     # end facing the main
     far = np.where(side < 0, pieces.t0, pieces.t1)
     dist = np.abs(near - np.where(has_main, tm, 0.0))
-    order = np.lexsort((dist, side, gl))
+    order = order_by_group(2 * gl + (side > 0), dist)     # as lexsort((dist, side, gl))
     inv = np.empty(m, int)
     inv[order] = np.arange(m)
     gl_o, side_o = gl[order], side[order]
@@ -696,7 +703,11 @@ def _connect(pieces, grid, mains, fields, zones, features, cross_setbacks):
         p0 = s_i[:, None] * v_i + from_t[idx][:, None] * u_i
         p1 = s_i[:, None] * v_i + to_t[idx][:, None] * u_i
         cand = shapely.linestrings(np.stack([p0, p1], axis=1))
-        valid = shapely.covered_by(cand, shapely.buffer(fields[f_i].astype(object), _TOL))
+        # each field buffered once (prepared: it is tested against many connectors)
+        uf, which = np.unique(f_i, return_inverse=True)
+        grown = shapely.buffer(fields[uf].astype(object), _TOL)
+        shapely.prepare(grown)
+        valid = shapely.covered_by(cand, grown[which])
         valid &= ~shapely.intersects(cand, features[f_i].astype(object))
         if not cross_setbacks:
             overlap = shapely.length(shapely.intersection(cand, zones[f_i].astype(object)))
