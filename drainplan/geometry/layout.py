@@ -241,9 +241,13 @@ def _main_chains(polys, u, v, low_side):
     e = np.arange(er.size) - ebase[er]            # edge number within its ring
 
     def best_runs(facing):
-        """Per ring: (sum across, first edge position, run id) of the best run of
-        consecutive facing edges, walking the ring from just after its first
-        non-facing edge (so no run wraps); -1 where none faces."""
+        """The best run of consecutive facing edges of every ring, walking each ring
+        from just after its first non-facing edge (so no run wraps round), as
+        ``max(runs, key=span)`` would pick it (the first of equal spans).
+
+        Returns per ring the run's number (-1 where no edge faces) and its span
+        across the laterals, then the walking order of the edges, their facing
+        flags and run numbers in that order."""
         gap = np.where(~facing, e, np.iinfo(np.int64).max)
         start = np.full(n_ring, np.iinfo(np.int64).max)
         np.minimum.at(start, er, gap)
@@ -280,10 +284,12 @@ def _main_chains(polys, u, v, low_side):
         pts.append(estart[edges])
         idx.append(er[edges])
     pts, idx = np.concatenate(pts), np.concatenate(idx)
+    if idx.size == 0:
+        return out
     # keep the walking order within a ring, add the end of each run's last edge
     order = np.argsort(idx, kind="stable")
     pts, idx = pts[order], idx[order]
-    last = np.r_[idx[1:] != idx[:-1], True] if idx.size else np.zeros(0, bool)
+    last = np.r_[idx[1:] != idx[:-1], True]
     k = np.arange(idx.size) + np.cumsum(np.r_[False, last[:-1]])   # room for the ends
     all_pts = np.empty(idx.size + int(last.sum()), dtype=np.int64)
     all_idx = np.empty_like(all_pts)
@@ -291,8 +297,8 @@ def _main_chains(polys, u, v, low_side):
     all_pts[k[last] + 1], all_idx[k[last] + 1] = pts[last] + 1, idx[last]
     coords = xy[all_pts]
     # order each main by increasing s
-    first_pt = np.r_[True, all_idx[1:] != all_idx[:-1]] if all_idx.size else np.zeros(0, bool)
-    last_pt = np.r_[first_pt[1:], True] if all_idx.size else np.zeros(0, bool)
+    first_pt = np.r_[True, all_idx[1:] != all_idx[:-1]]
+    last_pt = np.r_[first_pt[1:], True]
     rings_used = all_idx[first_pt]
     vf = v[pid[rings_used]]
     s_first = coords[first_pt][:, 0] * vf[:, 0] + coords[first_pt][:, 1] * vf[:, 1]
@@ -346,9 +352,14 @@ def _trim_mains(mains, junctions, jfield, outlet):
     has_main = np.array([m is not None for m in mains], bool)
     if jfield.size == 0 or not np.any(has_main):
         return new, outlets
-    # junctions are grouped by field (sorted); positions along their field's main
+    # junctions grouped by field (they come sorted); positions along their field's main
+    if np.any(jfield[1:] < jfield[:-1]):
+        by_field = np.argsort(jfield, kind="stable")
+        jfield, junctions = jfield[by_field], junctions[by_field]
     jm = has_main[jfield]
     jf, jp = jfield[jm], junctions[jm]
+    if jf.size == 0:
+        return new, outlets
     pos = shapely.line_locate_point(mains[jf].astype(object), jp)
     starts = np.flatnonzero(np.r_[True, jf[1:] != jf[:-1]])
     fids = jf[starts]
@@ -572,12 +583,13 @@ def layout_fields(fields, options, *, exclusions=None, exclusion_setbacks=None,
                                  n_fields=m)
     # pieces shorter than a micrometre are where a scan line grazes a vertex or a
     # zero-width spike of the boundary: not laterals, and not counted as dropped
-    pieces = pieces.subset(pieces.length >= 1e-6)
-    short = pieces.length < options.min_length
+    length = pieces.length
+    real = length >= 1e-6
+    short = real & (length < options.min_length)
     dropped_count = np.bincount(sub_owner[pieces.field[short]], minlength=n)
     dropped_length = np.bincount(sub_owner[pieces.field[short]],
-                                 weights=pieces.length[short], minlength=n)
-    pieces = pieces.subset(~short)
+                                 weights=length[short], minlength=n)
+    pieces = pieces.subset(real & ~short)
 
     conn = _connect(pieces, grid, sub_main, fields_filled[sub_owner], zones[sub_owner],
                     features[sub_owner], options.cross_setbacks)
