@@ -132,9 +132,10 @@ def measure(fields, repeat):
     best = dict(layout=math.inf, scan=math.inf, clip=math.inf)
     loads = dict(layout=[], scan=[], clip=[])
     for _ in range(repeat):
-        t, (_, (_, tot)) = cpu(lambda: full_layout(fields))
-        best["layout"] = min(best["layout"], t)
-        loads["layout"].append(load())
+        for _ in range(2):          # the layout twice a round: it is the short one
+            t, (_, (_, tot)) = cpu(lambda: full_layout(fields))
+            best["layout"] = min(best["layout"], t)
+            loads["layout"].append(load())
         insets, bearing = insets_and_bearings(fields)
         t, (pieces, _) = cpu(lambda: scan_laterals(insets, bearing, SPACING))
         scan_len = float(pieces.length.sum())
@@ -175,24 +176,6 @@ def main():
             f"({area_ha.min():.0f}-{area_ha.max():.0f} ha fields) "
             f"| {scan_len:,.1f} m vs {clip_len:,.1f} m |")
         print(rows[-1], flush=True)
-    block_line = ""
-    if max(sizes) >= 4 * min(sizes):
-        # the largest size again, as calls of the smallest size (results kept): same
-        # work and memory, arrays a fraction of the size
-        big, small = max(sizes), min(sizes)
-        fields = all_fields[:big]
-        t_blocks = math.inf
-        for _ in range(args.repeat):
-            t, kept = cpu(lambda: [full_layout(fields[i:i + small])
-                                   for i in range(0, big, small)])
-            del kept
-            t_blocks = min(t_blocks, t)
-        block_line = (f"The {big:,} fields laid out in {big // small} calls of {small:,} "
-                      f"(results kept) take {t_blocks:.2f} s (load {load():.1f}), "
-                      f"{t_blocks / by_size[big]['layout']:.2f}x one call: the growth of the "
-                      "cost per field with the number of fields comes with the memory the "
-                      "geometries hold, not from the algorithm (no step scans all fields "
-                      "per field; every step is one pass or one sort over all of them).")
     ref_line = ""
     if not args.no_reference and 10_000 in by_size:
         ref = reference_layout()
@@ -214,9 +197,12 @@ def main():
         "",
         f"Measured {time.strftime('%Y-%m-%d')} on {platform.machine()}, {os.cpu_count()} cores, "
         f"Python {platform.python_version()}, numpy {np.__version__}, shapely "
-        f"{shapely.__version__} (GEOS {shapely.geos_version_string}); CPU time of one thread, "
-        f"best of {args.repeat}, one BLAS thread; 1-minute load average beside each figure "
-        "(highest over the runs) (`python benchmarks/bench_layout.py --write`).",
+        f"{shapely.__version__} (GEOS {shapely.geos_version_string}); CPU time of one thread "
+        f"(best of {2 * args.repeat} runs for the layout, {args.repeat} for the scan line "
+        "and the yardstick, in turn; the best run also leaves out the first, which takes "
+        "fresh memory pages from the system), one BLAS thread; 1-minute load average "
+        "beside each figure (highest over the runs) "
+        "(`python benchmarks/bench_layout.py --write`).",
         "",
         "Irregular fields (7-12 vertices, 5-80 ha), 15 m spacing along each field's long "
         "axis, 6 m headland setback. Whole layout: `layout_fields` and its quantities "
@@ -235,8 +221,6 @@ def main():
         f"{max(per_field) * 1e3:.3f} ms over {sizes[0]:,}-{sizes[-1]:,} fields "
         f"(largest / smallest {growth:.2f}).",
     ]
-    if block_line:
-        lines += ["", block_line]
     if ref_line:
         lines += ["", ref_line]
     lines += [
