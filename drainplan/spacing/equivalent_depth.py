@@ -497,11 +497,16 @@ def _solve_block(A, B, D, r0, lo, hi, method, cap, kirkham, xtol):
     # d reaches D only for a barrier within about pi r0 of the drains (or no
     # barrier depth at all), or spacings within a few radii: those go to the
     # bracketed solver.
-    ok = (gamma > 0.05) & (L_D > 12.0 * r0) if cap else np.ones(n, dtype=bool)
+    if not cap or (gamma.min() > 0.05 and L_D.min() > 12.0 * r0.max()):
+        ok = None                    # all of them (checked on the extremes first)
+    else:
+        ok = (gamma > 0.05) & (L_D > 12.0 * r0)
     L0 = np.maximum(_spacing_estimate(A, B, D, pr, gamma, L_D), lo)
     small = (2.0 * _PI * D <= _X_SWITCH * L0) if method == "series" else (D <= 0.3 * L0)
     for branch in (True, False):
-        sel = ok & small if branch else ok & ~small
+        sel = small if branch else ~small
+        if ok is not None:
+            sel = sel & ok
         if sel.all():
             idx = slice(None)
         else:
@@ -511,17 +516,13 @@ def _solve_block(A, B, D, r0, lo, hi, method, cap, kirkham, xtol):
         Ab, Bb, x = A[idx], B[idx], L0[idx]
         Db = D[idx]
         wargs = _w_args(branch, method, kirkham, Db, r0[idx], gamma[idx])
-        prev = None
         if method == "series" and not kirkham:
-            # one Halley step with four terms of the series (cheap, ~1e-6 close)
-            g, g1, g2 = _g(_w_func(branch, method, kirkham, 4), x, Ab, Bb, wargs)
-            step = g / (g1 - 0.5 * g * g2 / g1)
-            x = x - step
-            prev = np.abs(step)
-        func = _w_func(branch, method, kirkham, 9)
-        L, good, _ = newton_block(lambda L, A, B, *wa: _g(func, L, A, B, wa), x, None,
-                                  None, (Ab, Bb, *wargs), xtol=xtol, rtol=0.0,
-                                  maxiter=8, prev=prev)
+            L, good = _two_halley_steps(branch, x, Ab, Bb, wargs, xtol)
+        else:
+            func = _w_func(branch, method, kirkham, 9)
+            L, good, _ = newton_block(lambda L, A, B, *wa: _g(func, L, A, B, wa), x, None,
+                                      None, (Ab, Bb, *wargs), xtol=xtol, rtol=0.0,
+                                      maxiter=8)
         # the series chosen from the estimate must still be exact at the root
         if method == "series":
             if branch:
@@ -547,6 +548,59 @@ def _solve_block(A, B, D, r0, lo, hi, method, cap, kirkham, xtol):
         done &= ~((Lj > lo) & (Lj < (L_D if hi is None else hi)) & (w_deep * u > A)
                   & (w_shallow * u < A))
     return root, done
+
+
+#: Terms of the series in the first Halley step: two bring the estimate within about
+#: 1e-4 m, close enough for the stop rule to end almost every case after the second.
+_FIRST_TERMS = 2
+
+
+def _halley_step(g, g1, g2):
+    """Halley's step f / (f' - f f'' / (2 f')), the arrays g, g2 reused."""
+    g2 *= g
+    g2 /= g1
+    g2 *= -0.5
+    g2 += g1
+    g /= g2
+    return g
+
+
+def _two_halley_steps(small, x, A, B, wargs, xtol):
+    """The root of G for one branch of the series method: one Halley step with the
+    series cut short, one with all of it; then the stop rule of
+    :func:`drainplan._solve.newton_block` (the error the second step's size predicts),
+    which every case meets in practice, checked on the largest step first; cases that
+    do not meet it carry on in ``newton_block``."""
+    from .._solve import newton_block
+
+    step = _halley_step(*_g(_w_func(small, "series", False, _FIRST_TERMS), x, A, B, wargs))
+    x = np.subtract(x, step)
+    prev = np.abs(step, out=step)
+    step = _halley_step(*_g(_w_func(small, "series", False, 9), x, A, B, wargs))
+    x -= step
+    a = np.abs(step, out=step)
+    c = 0.25 * xtol
+    # case by case, as newton_block does it
+    p = a * a * a
+    stop = p <= c * (x * x)
+    p *= a
+    prev3 = prev * prev
+    prev3 *= prev
+    prev3 *= c
+    stop &= p <= prev3
+    stop &= a <= 0.25 * prev
+    stop |= a <= xtol
+    good = stop
+    rest = np.flatnonzero(~stop)
+    if rest.size:
+        func = _w_func(small, "series", False, 9)
+        L, g, _ = newton_block(lambda L, A, B, *wa: _g(func, L, A, B, wa), x[rest], None, None,
+                               (A[rest], B[rest], *(v[rest] if np.ndim(v) else v
+                                                    for v in wargs)),
+                               xtol=xtol, rtol=0.0, maxiter=7, prev=a[rest])
+        x[rest] = L
+        good[rest] = g
+    return x, good
 
 
 def _g(wfun, L, A, B, wargs):
