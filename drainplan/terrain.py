@@ -69,9 +69,14 @@ class PointSurface:
 
     def __call__(self, xy):
         xy = np.asarray(xy, float).reshape(-1, 2)
-        order = _cell_order(xy, self._origin, self._cell)
-        z = np.empty(len(xy))
-        z[order] = self._linear(xy[order])
+        # points far apart one after the other (not along lines): look them up in cell
+        # order, so that scipy's walk from one point's triangle to the next stays short
+        if len(xy) >= 64 and _mean_step(xy) > self._cell:
+            order = _cell_order(xy, self._origin, self._cell)
+            z = np.empty(len(xy))
+            z[order] = self._linear(xy[order])
+        else:
+            z = self._linear(xy)
         miss = np.isnan(z)
         if np.any(miss):
             if self._nearest is None:
@@ -112,6 +117,15 @@ def _set_barycentric_transforms(tri):
     out = np.concatenate([inv, r[:, None, :]], axis=1)
     out[bad] = np.nan
     tri._transform = np.ascontiguousarray(out)
+
+
+def _mean_step(xy, windows=8, width=1000):
+    """Mean distance between consecutive points, over a few windows of the array."""
+    n = len(xy)
+    starts = np.unique(np.linspace(0, max(n - width, 0), windows).astype(int))
+    idx = (starts[:, None] + np.arange(min(width, n))[None, :]).ravel()
+    d = np.diff(xy[idx].reshape(len(starts), -1, 2), axis=1)
+    return float(np.mean(np.hypot(d[..., 0], d[..., 1])))
 
 
 def _cell_order(xy, origin, cell):

@@ -225,7 +225,8 @@ def _line_vertices(lines):
 
     xy, which = shapely.get_coordinates(np.asarray(lines, dtype=object), return_index=True)
     counts = np.bincount(which, minlength=len(lines)).astype(np.int64)
-    start = np.r_[0, np.cumsum(counts)[:-1]].astype(np.int64)
+    start = np.r_[0, np.cumsum(counts)[:-1]].astype(np.int64) if len(lines) else \
+        np.zeros(0, np.int64)
     step = np.zeros(len(xy))
     if len(xy) > 1:
         step[1:] = np.hypot(*np.diff(xy, axis=0).T)
@@ -240,47 +241,50 @@ def _line_vertices(lines):
 def _interp_along(owner, ch, xy, start, counts, cum):
     """Points at chainages ``ch`` along the lines ``owner`` (as ``np.interp`` over each
     line's vertex chainages, for all samples at once)."""
-    s, n = start[owner], counts[owner]
-    last = s + n - 1
-    # segment of each sample: searched on chainages made increasing across lines
-    span = float(cum.max(initial=0.0)) + 10.0
-    line_of_vertex = np.repeat(np.arange(len(start)), counts)
-    j = np.searchsorted(cum + span * line_of_vertex, ch + span * owner, side="right") - 1
-    j = np.clip(j, s, np.maximum(last - 1, s))
+    s = start[owner]
+    last = s + counts[owner] - 1
+    j = s.copy()
+    bent = counts[owner] > 2                       # lines of more than one segment
+    if np.any(bent):
+        # segment of each sample: searched on chainages made increasing across lines
+        span = float(cum.max(initial=0.0)) + 10.0
+        line_of_vertex = np.repeat(np.arange(len(start)), counts)
+        jb = np.searchsorted(cum + span * line_of_vertex, ch[bent] + span * owner[bent],
+                             side="right") - 1
+        j[bent] = np.clip(jb, s[bent], np.maximum(last[bent] - 1, s[bent]))
     j1 = np.minimum(j + 1, last)
     out = np.empty((len(ch), 2))
+    at_end = ch >= cum[last]
     with np.errstate(divide="ignore", invalid="ignore"):
+        dx = cum[j1] - cum[j]
+        off = ch - cum[j]
         for d in range(2):
-            f0, f1 = xy[j, d], xy[j1, d]
-            slope = (f1 - f0) / (cum[j1] - cum[j])
-            v = slope * (ch - cum[j]) + f0
-            bad = np.isnan(v)
-            if np.any(bad):
-                v[bad] = (slope * (ch - cum[j1]) + f1)[bad]
-                v = np.where(np.isnan(v) & (f0 == f1), f0, v)
-            at_end = ch >= cum[last]
-            out[:, d] = np.where(at_end, xy[last, d], np.where(ch < cum[s], xy[s, d], v))
+            f0 = xy[j, d]
+            slope = (xy[j1, d] - f0) / dx
+            v = slope * off + f0
+            bad = np.flatnonzero(np.isnan(v))
+            if bad.size:
+                f1 = xy[j1[bad], d]
+                w = slope[bad] * (ch[bad] - cum[j1[bad]]) + f1
+                v[bad] = np.where(np.isnan(w) & (f0[bad] == f1), f0[bad], w)
+            v[at_end] = xy[last[at_end], d]
+            out[:, d] = v
     return out
 
 
-def _sample_lines(lines, extra_owner=None, extra_ch=None):
+def _sample_lines(lines, extra_owner=None, extra_ch=None, chunk=200_000):
     """Samples of many lines: chainages every ``_STEP`` m (ends included; for
     carriers also the junction chainages, dropping regular samples within 1 m of
     one), and their points.
 
     Returns ``(ch, xy, start, count, length)`` with the samples of line i at
-    ``start[i]:start[i] + count[i]``.
+    ``start[i]:start[i] + count[i]``. Worked in chunks of about ``chunk`` samples.
     """
     m = len(lines)
     vxy, vstart, vcount, cum = _line_vertices(lines)
     length = np.where(vcount > 0, cum[np.maximum(vstart + vcount - 1, 0)], 0.0)
     n = np.maximum(2, np.ceil(length / _STEP).astype(np.int64) + 1)
-    owner = np.repeat(np.arange(m), n)
-    k = np.arange(int(n.sum())) - np.repeat(np.r_[0, np.cumsum(n)[:-1]], n)
-    step = (length / (n - 1))[owner]
-    ch = k * step                                   # as np.linspace(0, L, n)
-    is_last = k == n[owner] - 1
-    ch[is_last] = length[owner[is_last]]
+    eo = ev = None
     if extra_owner is not None and len(extra_owner):
         eo = np.asarray(extra_owner, np.int64)
         ev = np.clip(np.asarray(extra_ch, float), 0.0, length[eo])
@@ -288,28 +292,46 @@ def _sample_lines(lines, extra_owner=None, extra_ch=None):
         eo, ev = eo[o], ev[o]
         keep = np.r_[True, (np.diff(eo) != 0) | (np.diff(ev) != 0)]
         eo, ev = eo[keep], ev[keep]
-        has = np.zeros(m, bool)
-        has[eo] = True
-        # the nearest junction chainage on the same line, for every regular sample
-        span = float(length.max(initial=0.0)) + 10.0
-        pos = np.searchsorted(ev + span * eo, ch + span * owner)
-        near = np.zeros(len(ch), bool)
-        for p in (pos - 1, pos):
-            ok = (p >= 0) & (p < len(ev))
-            pc = np.clip(p, 0, max(len(ev) - 1, 0))
-            near |= ok & (eo[pc] == owner) & (np.abs(ch - ev[pc]) < 1.0)
-        first = k == 0
-        near &= ~first & ~is_last & has[owner]
-        owner = np.r_[owner[~near], eo]
-        ch = np.r_[ch[~near], ev]
-        o = np.lexsort((ch, owner))
-        owner, ch = owner[o], ch[o]
-        keep = np.r_[True, (np.diff(owner) != 0) | (np.diff(ch) != 0)]
-        owner, ch = owner[keep], ch[keep]
-    count = np.bincount(owner, minlength=m).astype(np.int64)
-    start = np.r_[0, np.cumsum(count)[:-1]].astype(np.int64)
-    xy = _interp_along(owner, ch, vxy, vstart, vcount, cum)
-    return ch, xy, start, count, length
+    # chunks of whole lines
+    edges = np.searchsorted(np.cumsum(n), np.arange(chunk, int(n.sum()), chunk))
+    edges = np.unique(np.r_[0, edges + 1, m]) if m else np.array([0])
+    edges = edges[edges <= m]
+    chs, xys, counts = [], [], np.zeros(m, np.int64)
+    for a, b in zip(edges[:-1], edges[1:]):
+        nn = n[a:b]
+        owner = np.repeat(np.arange(a, b), nn)
+        k = np.arange(int(nn.sum())) - np.repeat(np.r_[0, np.cumsum(nn)[:-1]], nn)
+        ch = k * np.repeat(length[a:b] / (nn - 1), nn)      # as np.linspace(0, L, n)
+        is_last = k == np.repeat(nn - 1, nn)
+        ch[is_last] = length[a:b]
+        if eo is not None:
+            ea, eb = np.searchsorted(eo, [a, b])
+            if eb > ea:
+                co, cv = eo[ea:eb], ev[ea:eb]
+                has = np.zeros(m, bool)
+                has[co] = True
+                # the nearest junction chainage on the same line, for every sample
+                span = float(length[a:b].max(initial=0.0)) + 10.0
+                pos = np.searchsorted(cv + span * (co - a), ch + span * (owner - a))
+                near = np.zeros(len(ch), bool)
+                for p in (pos - 1, pos):
+                    pc = np.clip(p, 0, len(cv) - 1)
+                    near |= (p >= 0) & (p < len(cv)) & (co[pc] == owner) & \
+                        (np.abs(ch - cv[pc]) < 1.0)
+                near &= (k != 0) & ~is_last & has[owner]
+                owner = np.r_[owner[~near], co]
+                ch = np.r_[ch[~near], cv]
+                o = np.lexsort((ch, owner))
+                owner, ch = owner[o], ch[o]
+                keep = np.r_[True, (np.diff(owner) != 0) | (np.diff(ch) != 0)]
+                owner, ch = owner[keep], ch[keep]
+        counts[a:b] = np.bincount(owner - a, minlength=b - a)
+        chs.append(ch)
+        xys.append(_interp_along(owner, ch, vxy, vstart, vcount, cum))
+    start = np.r_[0, np.cumsum(counts)[:-1]].astype(np.int64) if m else np.zeros(0, np.int64)
+    ch = np.concatenate(chs) if chs else np.zeros(0)
+    xy = np.concatenate(xys) if xys else np.zeros((0, 2))
+    return ch, xy, start, counts, length
 
 
 def _highest_invert(ch, cap, min_grade, max_grade=None):
