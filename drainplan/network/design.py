@@ -621,11 +621,11 @@ def design_network(runs, carriers, options, *, surface=None, outlets=None):
             c = car[cid]
             L = float(c_len[k]) if car_n[k] else float(c.line.length)
             ri, ci = runs_into[k], cars_into[k]
-            jch = np.r_[run_jch[ri], car_jch[ci]]
-            areas = np.r_[lat_area_back[ri], area_in[ci]]
-            sizes_in = np.r_[lat_size[ri], size_out[ci]]
+            jch = _cat(run_jch[ri], car_jch[ci])
+            areas = _cat(lat_area_back[ri], area_in[ci])
+            sizes_in = _cat(lat_size[ri], size_out[ci])
             area_in[k] = float(areas.sum())
-            cuts = np.unique(np.clip(np.r_[0.0, jch, L], 0.0, L).round(6))
+            cuts = np.unique(np.clip(np.concatenate((_ZERO, jch, (L,))), 0.0, L).round(6))
             cuts[0], cuts[-1] = 0.0, L
             lo, hi = cuts[:-1], cuts[1:]
             keep = hi - lo >= 1e-6
@@ -636,15 +636,15 @@ def design_network(runs, carriers, options, *, surface=None, outlets=None):
             o = np.argsort(jch, kind="stable")
             js = jch[o]
             n_up = np.searchsorted(js, lo + 1e-6, side="right")
-            cum_area = np.r_[0.0, np.cumsum(areas[o])]
-            cum_size = np.r_[-1, np.maximum.accumulate(sizes_in[o])] if o.size else \
-                np.array([-1])
+            cum_area = np.concatenate((_ZERO, np.cumsum(areas[o])))
+            cum_size = np.concatenate((_NONE, np.maximum.accumulate(sizes_in[o]))) \
+                if o.size else _NONE
             up_area = cum_area[n_up]
             flow = np.where(up_area > 0, np.asarray(design_flow(q, np.maximum(up_area, 1e-300)),
                                                     float) * 1e3, 0.0)
             if surface is not None:
                 a, b = car_start[k], car_start[k] + car_n[k]
-                inv = np.interp(np.r_[lo, hi], car_ch[a:b], car_z[a:b])
+                inv = np.interp(np.concatenate((lo, hi)), car_ch[a:b], car_z[a:b])
                 iu, idn = inv[:lo.size], inv[lo.size:]
             first = len(level_rows)
             for m in range(lo.size):
@@ -803,6 +803,15 @@ def design_network(runs, carriers, options, *, surface=None, outlets=None):
     return design
 
 
+_ZERO = np.zeros(1)
+_NONE = np.full(1, -1, np.int64)
+
+
+def _cat(a, b):
+    """Two arrays one after the other (without a copy where one is empty)."""
+    return b if not a.size else a if not b.size else np.concatenate((a, b))
+
+
 def _group(key, value, n):
     """``value`` split by ``key`` into n arrays (the values' order kept)."""
     key = np.asarray(key, np.int64)
@@ -877,8 +886,8 @@ def _outside_by_chainage(order, runs_into, cars_into, run_jch, car_jch, areas_la
     jchs, cums = [], []
     for k in range(nc):
         ri, ci = runs_into[k], cars_into[k]
-        jch = np.r_[run_jch[ri], car_jch[ci]]
-        ar = np.r_[areas_lat[ri], total[ci]]
+        jch = _cat(run_jch[ri], car_jch[ci])
+        ar = _cat(areas_lat[ri], total[ci])
         total[k] = float(np.sum(ar)) if ar.size else 0.0
         o = np.argsort(jch)
         jchs.append(jch[o])

@@ -293,6 +293,7 @@ def route_trunk(fields, main_ends, outlets, exclusions=None, *, mains=None, k_li
     # nodes: outlets, system ends, the fields' boundary corners, the mains' vertices
     ring_xy, ring_f, ring_edges = [], [], []
     base = n_o + n_f
+    n_ring = 0                                       # corners so far
     for f in range(n_f):
         g = fields[f]
         if g is None:
@@ -300,7 +301,8 @@ def route_trunk(fields, main_ends, outlets, exclusions=None, *, mains=None, k_li
         g = shapely.simplify(g, 0.5, preserve_topology=True)
         for r in shapely.get_rings(shapely.get_parts(g)):
             c = np.asarray(r.coords)[:-1]
-            k0 = base + sum(len(x) for x in ring_xy)
+            k0 = base + n_ring
+            n_ring += len(c)
             ring_xy.append(c)
             ring_f.append(np.full(len(c), f))
             ids = k0 + np.arange(len(c))
@@ -311,13 +313,15 @@ def route_trunk(fields, main_ends, outlets, exclusions=None, *, mains=None, k_li
     m_xy, m_f, m_edges, main_in = [], [], [], []     # main_in: corner -> main vertex
     tree = cKDTree(corners)
     k = min(k_links, len(corners))
+    n_mv = 0                                         # main vertices so far
     if mains is not None:
         for f in have:
             m = mains[f]
             if m is None:
                 continue
             c = np.asarray(m.coords)
-            k0 = mbase + sum(len(x) for x in m_xy)
+            k0 = mbase + n_mv
+            n_mv += len(c)
             m_xy.append(c)
             m_f.append(np.full(len(c), f))
             ids = k0 + np.arange(len(c))
@@ -367,15 +371,21 @@ def route_trunk(fields, main_ends, outlets, exclusions=None, *, mains=None, k_li
     if exclusions is not None and not shapely.is_empty(exclusions):
         ok &= ~shapely.intersects(seg, exclusions)
     # stretches through a field's interior cost more than along its edges; following
-    # an existing main costs half (the main is there and is only enlarged)
+    # an existing main costs half (the main is there and is only enlarged). A link and
+    # its reverse (the first 2 x len(both) links) share one computation.
     interiors = np.array([shapely.buffer(g, -2.0) if g is not None else shapely.Polygon()
                           for g in fields], dtype=object)
     itree = shapely.STRtree(interiors)
-    pairs = itree.query(seg, predicate="intersects")
-    inside = np.zeros(len(e))
+    nb = len(both)
+    once = np.r_[np.arange(nb), np.arange(2 * nb, len(e))]
+    pairs = itree.query(seg[once], predicate="intersects")
+    inside_once = np.zeros(len(once))
     if pairs.size:
-        np.add.at(inside, pairs[0], shapely.length(shapely.intersection(
-            seg[pairs[0]], interiors[pairs[1]])))
+        np.add.at(inside_once, pairs[0], shapely.length(shapely.intersection(
+            seg[once[pairs[0]]], interiors[pairs[1]])))
+    inside = np.zeros(len(e))
+    inside[once] = inside_once
+    inside[nb:2 * nb] = inside_once[:nb]
     is_main_edge = along_main & (node_f[e[:, 0]] == node_f[e[:, 1]]) & (e[:, 0] >= mbase)
     w = np.where(is_main_edge, 0.5 * length, length + (_INTERIOR_COST - 1.0) * inside)
     w = np.maximum(w, 1e-9)
