@@ -205,7 +205,10 @@ def _padded(values, start, counts, idx, width, fill):
     col = np.arange(width)[None, :]
     n = counts[idx][:, None]
     valid = col < n
-    pos = start[idx][:, None] + np.minimum(col, np.maximum(n - 1, 0))
+    pos = np.minimum(start[idx][:, None] + np.minimum(col, np.maximum(n - 1, 0)),
+                     max(len(values) - 1, 0))
+    if not len(values):
+        return np.full(pos.shape, fill, float), valid & False, pos
     return np.where(valid, values[pos], fill), valid, pos
 
 
@@ -611,83 +614,41 @@ def design_network(runs, carriers, options, *, surface=None, outlets=None):
     car_rows = {}
     area_in = np.zeros(nc)                         # total area each carrier delivers
     size_out = np.full(nc, -1, np.int64)           # size index at each carrier's end
-    reach_rng = {}                                 # carrier -> (first row, rows)
+    # what enters each carrier, grouped by carrier: runs (in run order), then carriers
+    ev_own = np.concatenate((r_to[joined], c_to[inflow_order]))
+    ev_ref = np.concatenate((joined, inflow_order))
+    ev_run = np.concatenate((np.ones(joined.size, bool), np.zeros(inflow_order.size, bool)))
+    o = np.argsort(ev_own, kind="stable")
+    ev_own, ev_ref, ev_run = ev_own[o], ev_ref[o], ev_run[o]
+    ev_jch = np.where(ev_run, run_jch[np.where(ev_run, ev_ref, 0)] if nr else 0.0,
+                      car_jch[np.where(ev_run, 0, ev_ref)] if nc else 0.0)
     lv = np.array([depth[c] for c in order], np.int64)
-    level_start = np.r_[0, np.flatnonzero(np.diff(lv)) + 1, nc]
+    level_start = np.r_[0, np.flatnonzero(np.diff(lv)) + 1, nc] if nc else np.zeros(1, int)
     for la, lb in zip(level_start[:-1], level_start[1:]):
-        level_rows, groups, floors, starts_at, ends_at = [], [], [], [], []
-        for k in range(la, lb):
-            cid = order[k]
-            c = car[cid]
-            L = float(c_len[k]) if car_n[k] else float(c.line.length)
-            ri, ci = runs_into[k], cars_into[k]
-            jch = _cat(run_jch[ri], car_jch[ci])
-            areas = _cat(lat_area_back[ri], area_in[ci])
-            sizes_in = _cat(lat_size[ri], size_out[ci])
-            area_in[k] = float(areas.sum())
-            cuts = np.unique(np.clip(np.concatenate((_ZERO, jch, (L,))), 0.0, L).round(6))
-            cuts[0], cuts[-1] = 0.0, L
-            lo, hi = cuts[:-1], cuts[1:]
-            keep = hi - lo >= 1e-6
-            lo, hi = lo[keep], hi[keep]
-            if not lo.size:                   # a carrier of no length passes everything on
-                size_out[k] = int(sizes_in.max(initial=-1))
-                continue
-            o = np.argsort(jch, kind="stable")
-            js = jch[o]
-            n_up = np.searchsorted(js, lo + 1e-6, side="right")
-            cum_area = np.concatenate((_ZERO, np.cumsum(areas[o])))
-            cum_size = np.concatenate((_NONE, np.maximum.accumulate(sizes_in[o]))) \
-                if o.size else _NONE
-            up_area = cum_area[n_up]
-            flow = np.where(up_area > 0, np.asarray(design_flow(q, np.maximum(up_area, 1e-300)),
-                                                    float) * 1e3, 0.0)
+        rows_of, lv_rows = _level_reaches(
+            la, lb, order, car, c_len, ev_own, ev_ref, ev_run, ev_jch, lat_area_back,
+            lat_size, area_in, size_out, q, surface, options,
+            (car_ch, car_z, car_start, car_n) if surface is not None else None)
+        if not lv_rows:
+            continue
+        group = np.array([r.pop("_k") for r in lv_rows], np.int64)
+        ln = c_line[group]
+        ab = np.array([r["chainage_m"] for r in lv_rows], float)
+        p0 = shapely.get_coordinates(shapely.line_interpolate_point(ln, ab[:, 0]))
+        p1 = shapely.get_coordinates(shapely.line_interpolate_point(ln, ab[:, 1]))
+        floors = np.array([r.pop("_floor") for r in lv_rows], np.int64)
+        for m, row in enumerate(lv_rows):
+            row["_start"], row["_end"] = p0[m], p1[m]
+        _size_rows(lv_rows, series, options, violations, uniform_inflow=False, taper=True,
+                   min_index=floors, groups=group)
+        for k, (first, cnt) in rows_of.items():
+            rows = lv_rows[first:first + cnt]
+            car_rows[order[k]] = rows
+            size_out[k] = _size_index(rows[-1], series)
             if surface is not None:
                 a, b = car_start[k], car_start[k] + car_n[k]
-                inv = np.interp(np.concatenate((lo, hi)), car_ch[a:b], car_z[a:b])
-                iu, idn = inv[:lo.size], inv[lo.size:]
-            first = len(level_rows)
-            for m in range(lo.size):
-                aa, bb = float(lo[m]), float(hi[m])
-                row = {"reach_id": f"{cid}{m + 1:02d}", "kind": c.kind,
-                       "field_id": c.field_id, "carrier_id": cid,
-                       "from": f"{aa:.1f} m", "to": f"{bb:.1f} m" if bb < L - 1e-6 else
-                       (c.to or f"outlet {c.outlet}"), "length_m": bb - aa,
-                       "drained_area_ha": float(up_area[m]) / 1e4,
-                       "flow_l_s": float(flow[m]),
-                       "warnings": [], "chainage_m": [aa, bb]}
-                if surface is None:
-                    row.update(grade=options.assumed_grade, invert_up_m=None,
-                               invert_down_m=None, cover_min_m=None)
-                else:
-                    row.update(grade=float((iu[m] - idn[m]) / (bb - aa)),
-                               invert_up_m=float(iu[m]), invert_down_m=float(idn[m]))
-                level_rows.append(row)
-            groups.append(np.full(lo.size, k))
-            floors.append(cum_size[n_up])
-            starts_at.append(lo)
-            ends_at.append(hi)
-            reach_rng[k] = (first, lo.size)
-        if not level_rows:
-            continue
-        group = np.concatenate(groups)
-        ln = c_line[group]
-        p0 = shapely.get_coordinates(shapely.line_interpolate_point(ln, np.concatenate(starts_at)))
-        p1 = shapely.get_coordinates(shapely.line_interpolate_point(ln, np.concatenate(ends_at)))
-        for m, row in enumerate(level_rows):
-            row["_start"], row["_end"] = p0[m], p1[m]
-        _size_rows(level_rows, series, options, violations, uniform_inflow=False, taper=True,
-                   min_index=np.concatenate(floors).astype(np.int64), groups=group)
-        for k in range(la, lb):
-            if k in reach_rng:
-                first, cnt = reach_rng[k]
-                rows = level_rows[first:first + cnt]
-                car_rows[order[k]] = rows
-                size_out[k] = _size_index(rows[-1], series)
-                if surface is not None:
-                    a, b = car_start[k], car_start[k] + car_n[k]
-                    profiles[order[k]] = {"chainage": car_ch[a:b], "ground": car_ground[a:b],
-                                          "invert": car_z[a:b]}
+                profiles[order[k]] = {"chainage": car_ch[a:b], "ground": car_ground[a:b],
+                                      "invert": car_z[a:b]}
 
     # ---- checks along every pipe: depth, cover, grade
     if surface is not None:
@@ -810,6 +771,117 @@ _NONE = np.full(1, -1, np.int64)
 def _cat(a, b):
     """Two arrays one after the other (without a copy where one is empty)."""
     return b if not a.size else a if not b.size else np.concatenate((a, b))
+
+
+def _level_reaches(la, lb, order, car, c_len, ev_own, ev_ref, ev_run, ev_jch,
+                   lat_area, lat_size, area_in, size_out, q, surface, options, prof):
+    """Reach rows of the carriers ``order[la:lb]`` (one tree level: all they receive is
+    sized already): each carrier split at its junctions, with the area and flow from
+    upstream, the inverts at both ends and the smallest size allowed (the largest it
+    receives upstream). Fills ``area_in`` and, for carriers of no length, ``size_out``.
+
+    Returns ``({carrier position: (first row, rows)}, rows)``."""
+    ea, eb = np.searchsorted(ev_own, [la, lb])
+    own, ref, isrun, jch = ev_own[ea:eb], ev_ref[ea:eb], ev_run[ea:eb], ev_jch[ea:eb]
+    areas = np.where(isrun, lat_area[np.where(isrun, ref, 0)] if len(lat_area) else 0.0,
+                     area_in[np.where(isrun, 0, ref)])
+    sizes = np.where(isrun, lat_size[np.where(isrun, ref, 0)] if len(lat_size) else -1,
+                     size_out[np.where(isrun, 0, ref)]).astype(np.int64)
+    nl = lb - la
+    owners = np.arange(la, lb)
+    L = c_len[la:lb]
+    ne = np.bincount(own - la, minlength=nl)
+    estart = np.concatenate(([0], np.cumsum(ne)[:-1])).astype(np.int64)
+    area_in[la:lb] = np.bincount(own - la, weights=areas, minlength=nl)
+    # cuts: ends and junction chainages (rounded to the micrometre), once each
+    vals = np.concatenate((np.zeros(nl), np.clip(jch, 0.0, L[own - la]), L)).round(6)
+    vown = np.concatenate((owners, own, owners))
+    o = np.lexsort((vals, vown))
+    vals, vown = vals[o], vown[o]
+    keep = np.concatenate(([True], (np.diff(vown) != 0) | (np.diff(vals) != 0)))
+    vals, vown = vals[keep], vown[keep]
+    new = np.concatenate(([True], vown[1:] != vown[:-1]))
+    end = np.concatenate((vown[1:] != vown[:-1], [True]))
+    vals[new] = 0.0
+    vals[end] = L[vown[end] - la]
+    lo, hi, iown = vals[:-1][~end[:-1]], vals[1:][~end[:-1]], vown[:-1][~end[:-1]]
+    ok = hi - lo >= 1e-6
+    lo, hi, iown = lo[ok], hi[ok], iown[ok]
+    has = np.zeros(nl, bool)
+    has[iown - la] = True
+    for k in np.flatnonzero(~has):               # no length: passes everything on
+        size_out[la + k] = int(sizes[estart[k]:estart[k] + ne[k]].max(initial=-1))
+    if not lo.size:
+        return {}, []
+    # what enters upstream of each reach's start: jch <= start + 1e-6 (events sorted
+    # by chainage within their carrier, ties in their given order)
+    so = np.lexsort((jch, own))
+    sj, sa, ss = jch[so], areas[so], sizes[so]
+    cum_area = np.empty(sa.size)
+    cnt = ne
+    for idx, width in _blocks(cnt):
+        if not width:
+            continue
+        blk, valid, pos = _padded(sa, estart, cnt, idx, width, 0.0)
+        cum_area[pos[valid]] = np.cumsum(blk, axis=1)[valid]
+    top = int(max(ss.max(initial=0), 0)) + 2
+    lift = (own - la).astype(np.int64) * top
+    cum_size = np.maximum.accumulate(ss + 1 + lift) - lift - 1 if ss.size else ss
+    qv = lo + 1e-6
+    allv = np.concatenate((sj, qv))
+    allo = np.concatenate((own, iown))
+    typ = np.concatenate((np.zeros(sj.size, np.int8), np.ones(qv.size, np.int8)))
+    o2 = np.lexsort((typ, allv, allo))
+    before = np.cumsum(o2 < sj.size)
+    where_q = np.empty(o2.size, np.int64)
+    where_q[o2] = np.arange(o2.size)
+    n_up = before[where_q[sj.size:]] - estart[iown - la]      # events upstream, per reach
+    last_ev = estart[iown - la] + n_up - 1
+    up_area = np.where(n_up > 0, cum_area[np.maximum(last_ev, 0)] if sa.size else 0.0, 0.0)
+    floor = np.where(n_up > 0, cum_size[np.maximum(last_ev, 0)] if ss.size else -1, -1)
+    flow = np.zeros(lo.size)
+    pos_area = up_area > 0
+    if np.any(pos_area):
+        flow[pos_area] = np.asarray(design_flow(q, up_area[pos_area]), float) * 1e3
+    if prof is not None:
+        ch, z, cst, cn = prof
+        s0 = cst[la]
+        s1 = cst[lb - 1] + cn[lb - 1]
+        zl = z[s0:s1]
+        inv = _interp_along(np.concatenate((iown, iown)) - la, np.concatenate((lo, hi)),
+                            np.stack([zl, zl], axis=1), cst[la:lb] - s0, cn[la:lb],
+                            ch[s0:s1])[:, 0]
+        iu, idn = inv[:lo.size], inv[lo.size:]
+    first = np.concatenate(([True], iown[1:] != iown[:-1]))
+    rank = np.arange(lo.size) - np.maximum.accumulate(np.where(first, np.arange(lo.size), 0))
+    n_rows = np.bincount(iown - la, minlength=nl)
+    rows, rows_of = [], {}
+    lo_l, hi_l, up_l, fl_l = lo.tolist(), hi.tolist(), up_area.tolist(), flow.tolist()
+    fo_l, own_l, rk_l = floor.tolist(), iown.tolist(), rank.tolist()
+    if prof is not None:
+        iu_l, id_l = iu.tolist(), idn.tolist()
+    for m in range(lo.size):
+        k = own_l[m]
+        cid = order[k]
+        c = car[cid]
+        Lk = float(L[k - la])
+        if rk_l[m] == 0:
+            rows_of[k] = (m, int(n_rows[k - la]))
+        aa, bb = lo_l[m], hi_l[m]
+        row = {"reach_id": f"{cid}{rk_l[m] + 1:02d}", "kind": c.kind,
+               "field_id": c.field_id, "carrier_id": cid,
+               "from": f"{aa:.1f} m", "to": f"{bb:.1f} m" if bb < Lk - 1e-6 else
+               (c.to or f"outlet {c.outlet}"), "length_m": bb - aa,
+               "drained_area_ha": up_l[m] / 1e4, "flow_l_s": fl_l[m],
+               "warnings": [], "chainage_m": [aa, bb], "_floor": fo_l[m], "_k": k}
+        if prof is None:
+            row.update(grade=options.assumed_grade, invert_up_m=None,
+                       invert_down_m=None, cover_min_m=None)
+        else:
+            row.update(grade=(iu_l[m] - id_l[m]) / (bb - aa), invert_up_m=iu_l[m],
+                       invert_down_m=id_l[m])
+        rows.append(row)
+    return rows_of, rows
 
 
 def _group(key, value, n):
