@@ -374,18 +374,6 @@ def _nearest_index(ch, x):
     return np.where(left, p - 1, p)
 
 
-def _first_extreme(values, seg_start, seg_count, largest=True):
-    """Per segment, the first index (within ``values``) of its largest (smallest)
-    value, NaN counting as the extreme (as ``np.argmax`` / ``np.argmin``)."""
-    red = np.maximum if largest else np.minimum
-    ext = red.reduceat(values, seg_start)
-    rep = np.repeat(ext, seg_count)
-    hit = (values == rep) | (np.isnan(values) & np.isnan(rep))
-    pos = np.flatnonzero(hit)
-    k = np.searchsorted(pos, seg_start)
-    return ext, pos[np.minimum(k, len(pos) - 1)]
-
-
 def design_network(runs, carriers, options, *, surface=None, outlets=None):
     """Flows, vertical design, sizes and checks of a drainage network.
 
@@ -1001,61 +989,69 @@ def _profile_checks(rows, lo, hi, ch, xy, ground, z, series, options, violations
     """Depth, cover and grade of many pipes against the limits: one problem per pipe.
 
     Row i covers the samples ``lo[i]:hi[i]``; rows with fewer than 2 samples are not
-    checked."""
+    checked. The tests run on all samples at once; the place of a problem (the
+    deepest point, the least cover, the steepest stretch) is looked up only in the
+    pipes that have one."""
     lo, hi = np.asarray(lo, np.int64), np.asarray(hi, np.int64)
     sel = np.flatnonzero(hi - lo >= 2)
     if not sel.size:
         return
     cnt = hi[sel] - lo[sel]
-    take = _ranges(lo[sel], hi[sel])
-    seg0 = np.r_[0, np.cumsum(cnt)[:-1]]
-    depth = ground[take] - z[take]
+    seg0 = np.concatenate(([0], np.cumsum(cnt)[:-1]))
+    if lo[sel[0]] == 0 and np.array_equal(lo[sel[1:]], hi[sel[:-1]]) and \
+            hi[sel[-1]] == len(ch):
+        take = None                               # the rows cover the samples in order
+        c, g, zz = ch, ground, z
+    else:
+        take = _ranges(lo[sel], hi[sel])
+        c, g, zz = ch[take], ground[take], z[take]
+    depth = g - zz
     inner = np.array([(rows[i].get("inner_diameter_mm") or 100.0) for i in sel], float)
     od = np.asarray(outside_diameter(inner / 1000.0, series.material), float)
     cover = depth - np.repeat(od, cnt)
-    dmax, kdeep = _first_extreme(depth, seg0, cnt, largest=True)
-    cmin, kcov = _first_extreme(cover, seg0, cnt, largest=False)
-    # grades between consecutive samples; the pair across two pipes and one slot after
-    # the last pipe hold -inf, so each pipe's pairs sit at its own samples' places
-    c = ch[take]
+    cmin = np.minimum.reduceat(cover, seg0)
+    deep_any = np.logical_or.reduceat(depth > options.max_depth + 1e-9, seg0)
+    # grades between consecutive samples; the pair across two pipes counts as flat
     dch = np.diff(c)
     with np.errstate(divide="ignore", invalid="ignore"):
-        seg = np.where(dch > 0.5, -np.diff(z[take]) / np.maximum(dch, 1e-9), 0.0)
-    seg = np.r_[seg, -np.inf]
-    seg[seg0[1:] - 1] = -np.inf
-    _, ksteep = _first_extreme(seg, seg0, cnt, largest=True)
-    deep_any = np.logical_or.reduceat(depth > options.max_depth + 1e-9, seg0)
-    steep_any = np.logical_or.reduceat(seg > options.max_grade + 1e-9, seg0)
-    for m, i in enumerate(sel):
-        row = rows[i]
-        row["cover_min_m"] = float(cmin[m])
-        if not (deep_any[m] or cmin[m] < options.min_cover - 1e-9 or steep_any[m]):
-            continue
+        seg = np.where(dch > 0.5, -np.diff(zz) / np.maximum(dch, 1e-9), 0.0)
+    steep = np.concatenate((seg > options.max_grade + 1e-9, [False]))
+    steep[seg0[1:] - 1] = False
+    steep_any = np.logical_or.reduceat(steep, seg0)
+    low_cover = cmin < options.min_cover - 1e-9
+    cmin_l = cmin.tolist()
+    for m, i in enumerate(sel.tolist()):
+        rows[i]["cover_min_m"] = cmin_l[m]
+    for m in np.flatnonzero(deep_any | low_cover | steep_any).tolist():
+        row = rows[sel[m]]
         rid = row["reach_id"]
+        a, b = int(seg0[m]), int(seg0[m] + cnt[m])
+        pt = (lambda k: xy[k + a] if take is None else xy[take[k + a]])
+        cc = c[a:b]
         if deep_any[m]:
-            k = kdeep[m]
+            k = int(np.argmax(depth[a:b]))
             violations.append(_violation(
-                "too deep", rid, c[k], xy[take[k]],
-                f"{depth[k]:.2f} m deep, more than the maximum {options.max_depth:.2f} m",
+                "too deep", rid, cc[k], pt(k),
+                f"{depth[a + k]:.2f} m deep, more than the maximum {options.max_depth:.2f} m",
                 "lay a sub-main or second outlet closer to this part, accept a deeper "
                 "trench, or reduce the minimum grade", ))
             violations[-1]["summary"] = (f"deeper than the maximum depth "
                                          f"{options.max_depth:.2f} m")
             row["warnings"].append("deeper than the maximum depth")
-        if row["cover_min_m"] < options.min_cover - 1e-9:
-            k = kcov[m]
+        if low_cover[m]:
+            k = int(np.argmin(cover[a:b]))
             violations.append(_violation(
-                "shallow cover", rid, c[k], xy[take[k]],
-                f"cover {cover[k]:.2f} m is less than {options.min_cover:.2f} m",
+                "shallow cover", rid, cc[k], pt(k),
+                f"cover {cover[a + k]:.2f} m is less than {options.min_cover:.2f} m",
                 "the outlet or a joining pipe holds it up: lower the outlet, or protect the "
                 "pipe (rigid pipe, no heavy traffic)"))
             violations[-1]["summary"] = f"cover less than {options.min_cover:.2f} m"
             row["warnings"].append("shallow cover")
         if steep_any[m]:
-            k = ksteep[m]                         # the steepest pair's upstream sample
+            k = int(np.argmax(seg[a:b - 1]))
             violations.append(_violation(
-                "steep", rid, c[k], xy[take[k]],
-                f"grade {seg[k]:.2%} exceeds the maximum {options.max_grade:.2%}",
+                "steep", rid, cc[k], pt(k),
+                f"grade {seg[a + k]:.2%} exceeds the maximum {options.max_grade:.2%}",
                 "put a drop structure here, or lay the pipe deeper upstream"))
             violations[-1]["summary"] = f"grade above the maximum {options.max_grade:.2%}"
             row["warnings"].append("steeper than the maximum grade")
