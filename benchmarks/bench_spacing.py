@@ -173,16 +173,27 @@ def methods():
             ("Kirkham (steady rain)", kirk, kirk_floor, scalar_kirkham, None)]
 
 
+FLOOR_BLOCKS = (4096, 8192, 16384, 32768)
+
+
+def rounds(repeat, n):
+    """Rounds of timing for n cases: ``repeat`` at 100,000 cases and more, more for
+    fewer cases (a short run is disturbed more, in proportion, by other work)."""
+    return max(repeat, min(10 * repeat, repeat * 100_000 // n))
+
+
 def solve_and_floor(solve, floor, c, L, n, repeat):
     """Best CPU times of the solver and of one evaluation at the answer (the floor: best
-    over block sizes), measured in turn so that both meet the same conditions."""
+    over block sizes), measured in turn so that both meet the same conditions, and the
+    solver timed as often as the floor (once per block size of a round) so that neither
+    gets more chances at a quiet moment."""
     def run_floor(block):
         for s in range(0, n, block):
             floor(c, L, slice(s, s + block))
     t_solve = t_floor = math.inf
-    for _ in range(repeat):
-        t_solve = min(t_solve, cpu_best(lambda: solve(c), 1))
-        for block in (4096, 8192, 16384, 32768):
+    for _ in range(rounds(repeat, n)):
+        for block in FLOOR_BLOCKS:
+            t_solve = min(t_solve, cpu_best(lambda: solve(c), 1))
             t_floor = min(t_floor, cpu_best(lambda: run_floor(block), 1))
     return t_solve, t_floor
 
@@ -257,7 +268,10 @@ def report(rows, startup, args):
             f"(`python benchmarks/bench_spacing.py{' --quick' if args.quick else ''} --write`).")
     lines = ["## Spacing solvers", "", head, "",
              "CPU time of the solving thread, best of "
-             f"{args.repeat}; *floor*: one vectorised evaluation of the equation at the "
+             + ", ".join(f"{len(FLOOR_BLOCKS) * rounds(args.repeat, n)} runs at {n:,} cases"
+                         for n in args.sizes)
+             + " (solver and floor in turn, as many runs each); *floor*: one vectorised "
+             "evaluation of the equation at the "
              "answer (series equivalent depth; best block size); *scalar*: a plain loop of "
              "scipy `brentq` on the same equation written with the `math` module "
              f"(Kirkham: its series summed by numpy per call), timed on {args.scalar_cases:,} "
@@ -278,15 +292,21 @@ def report(rows, startup, args):
             f" | {r['solve'] / r['floor']:.2f}x | {tgt} | {r['scalar'] / r['solve']:,.0f}x "
             f"| {r['agree']:.1e} m | {r['nan']} | {r['load']:.1f} |")
     lines += ["", "How: a closed-form estimate (the deep- and shallow-barrier limits of the "
-              "equivalent depth), one Halley step with four terms of the series, one with all "
-              "of them (`drainplan._solve.newton_root`'s stop predicts the error of the new "
-              "point); Kirkham's F_K in closed form (F_K = L / (8 d) less a finite-radius "
-              "term summed in a few terms), Newton steps. Results agree with the previous "
-              "implementation to 1e-6 m (tests/test_solver_reference.py). At 10,000 cases "
-              "the fixed cost of a call (input checks, Python's cost per array operation) "
-              "weighs more against the floor's few operations. The previous implementation "
-              "(bracketed Chandrupatla, blocks of 32,768) ran at 0.24-0.53 M cases/s for "
-              "Hooghoudt and 7,000-12,000 cases/s for Kirkham on this machine (issue 15)."]
+              "equivalent depth), one Halley step with two terms of the series, one with all "
+              "of them, each computed in one fused pass (W, G and the step with the "
+              "constants folded into the series), then `drainplan._solve.newton_block`'s "
+              "stop (the error the last step's size predicts), case by case; input checks "
+              "in one min/max pass per input (the case-by-case checks run only to name a bad "
+              "value); Kirkham's F_K in closed form (F_K = L / (8 d) less a finite-radius "
+              "term summed in a few terms), Newton steps. Blocks of 16,384 cases (measured "
+              "fastest at 100,000 and 1,000,000 cases against 4,096-65,536). Results agree "
+              "with the previous implementation to 1e-6 m (tests/test_solver_reference.py). "
+              "At 10,000 cases the fixed cost of a call (about 0.2 ms: input checks and "
+              "Python's price per array operation, twice over for the two branches of the "
+              "series) weighs more against the floor's few operations. The previous "
+              "implementation (bracketed Chandrupatla, blocks of 32,768) ran at 0.24-0.53 M "
+              "cases/s for Hooghoudt and 7,000-12,000 cases/s for Kirkham on this machine "
+              "(issue 15)."]
     srows, per_call, pint_loaded, mods, ld = startup
     lines2 = ["## Command-line start-up", "", head.replace("bench_spacing.py", "bench_spacing.py"),
               "", f"Wall time of a fresh process, best of {args.startup_repeat}; load average "
@@ -323,6 +343,7 @@ def main():
     args = ap.parse_args()
     sizes = [10_000, 100_000] if args.quick else [10_000, 100_000, 1_000_000]
     args.repeat = 3 if args.quick else 9
+    args.sizes = sizes
     args.scalar_cases = 300 if args.quick else 1500
     args.startup_repeat = 3 if args.quick else 7
     if args.default_allocator:

@@ -331,7 +331,7 @@ def newton_block(func, x, lo, hi, args, *, xtol, rtol, maxiter, prev=None):
                 p *= a                                # a^3
                 quick = p <= c * (x * x)
                 p *= a                                # a^4
-                quick &= p <= c * prev ** 3
+                quick &= p <= c * (prev * prev * prev)
             else:
                 step = np.divide(f, f1)               # Newton: f / f1
                 a = np.abs(step)

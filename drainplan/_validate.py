@@ -26,6 +26,27 @@ def _first_bad(bad, values):
     return float(np.broadcast_to(values, np.shape(bad)).ravel()[i])
 
 
+def _reduced(values):
+    """A float array's distinct values as a view (a broadcast input's repeated axes
+    dropped), or None for anything else; for the one-pass checks below."""
+    if not isinstance(values, np.ndarray) or values.dtype.kind != "f" or not values.size:
+        return None
+    if values.ndim and 0 in values.strides:
+        values = values[tuple(0 if st == 0 else slice(None) for st in values.strides)]
+    return values
+
+
+def _all_within(values, lo, lo_open):
+    """True when every value is finite and above ``lo`` (or at least ``lo``): one
+    min and one max (NaN spreads into both), so valid inputs pass in two passes.
+    False means "look case by case" (the detailed checks find the culprit)."""
+    a = _reduced(values)
+    if a is None:
+        return False
+    mn, mx = a.min(), a.max()
+    return bool((mn > lo if lo_open else mn >= lo) and mx < np.inf)
+
+
 def require_finite(values, param, label, unit):
     bad = ~np.isfinite(values)
     if np.any(bad):
@@ -35,6 +56,8 @@ def require_finite(values, param, label, unit):
 
 def require_positive(values, param, label, unit):
     """Raise InputError naming ``label`` if any value is not a finite number > 0."""
+    if _all_within(values, 0.0, True):
+        return
     require_finite(values, param, label, unit)
     bad = values <= 0
     if np.any(bad):
@@ -45,6 +68,8 @@ def require_positive(values, param, label, unit):
 
 def require_nonnegative(values, param, label, unit):
     """Raise InputError naming ``label`` if any value is negative or not finite."""
+    if _all_within(values, 0.0, False):
+        return
     require_finite(values, param, label, unit)
     bad = values < 0
     if np.any(bad):
@@ -69,6 +94,9 @@ def scalar_or_array(a):
 
 def require_radius_below_barrier(depth_to_barrier, drain_radius):
     """The drain must fit above the barrier: r0 < D wherever D > 0."""
+    d, r = _reduced(depth_to_barrier), _reduced(drain_radius)
+    if d is not None and r is not None and d.min() > r.max():
+        return                                   # every radius below every depth
     bad = (depth_to_barrier > 0) & (drain_radius >= depth_to_barrier)
     if np.any(bad):
         raise InputError(

@@ -249,3 +249,85 @@ def test_edge_cases_keep_their_meaning():
     # a smaller drop allows a wider spacing; 28.66 m is method notes C-T2 (derived)
     assert L2.shape == (2, 2) and np.all(np.diff(L2.ravel()) > 0)
     assert_allclose(L2[0, 0], 28.66, atol=0.005)
+
+
+# ---------------------------------------------------------------------------------------
+# Paths the practical sample rarely takes
+# ---------------------------------------------------------------------------------------
+
+def test_cases_left_by_the_two_halley_steps_are_finished(monkeypatch):
+    """From starts far off the root (half of it, 1.6 times it) the two fused Halley steps
+    of the series method cannot end every case by their stop rule; newton_block finishes
+    those. Reference: scipy brentq on Hooghoudt's equation with the published series
+    (_d_reference above), to the solvers' 1e-6 m."""
+    import importlib
+
+    import drainplan._solve as solve_module
+
+    ed = importlib.import_module("drainplan.spacing.equivalent_depth")
+    finished = []
+    real = solve_module.newton_block
+
+    def spy(*args, **kw):
+        finished.append(args[1].size)
+        return real(*args, **kw)
+
+    monkeypatch.setattr(solve_module, "newton_block", spy)
+    s = _sample(40, 606)
+    q, h, k, D, r = s["q"], s["h"], s["k"], s["D"], s["r"]
+    ref = []
+    for i in range(40):
+        def f(x, i=i):
+            return q[i] * x * x - 8.0 * k[i] * _d_reference(x, D[i], r[i]) * h[i] \
+                - 4.0 * k[i] * h[i] * h[i]
+        lo = max(math.sqrt(4.0 * k[i] * h[i] ** 2 / q[i]), math.pi * r[i] * (1 + 1e-6))
+        hi = math.sqrt((8.0 * k[i] * D[i] * h[i] + 4.0 * k[i] * h[i] ** 2) / q[i]) * (1 + 1e-9)
+        ref.append(brentq(f, lo, hi, xtol=1e-12))
+    ref = np.array(ref)
+    A, B = np.pi * k * h / q, 4.0 * k * h * h / q
+    small = 2.0 * np.pi * D <= ed._X_SWITCH * ref
+    assert small.any() and (~small).any()
+    for factor in (0.5, 1.6):
+        for branch in (True, False):
+            i = np.flatnonzero(small == branch)
+            if branch:
+                p, g, k2 = 1.0 / D[i], np.log(D[i] / (np.pi * r[i])), -0.25 * np.pi ** 2 / D[i] ** 2
+            else:
+                p, g, k2 = 2.0 * np.pi * D[i], np.log(np.pi * r[i]), None
+            L, good = ed._two_halley_steps(branch, ref[i] * factor, A[i], B[i], p, g, k2, 1e-6)
+            assert good.all()
+            assert_allclose(L, ref[i], rtol=0, atol=1e-6)
+    assert len(finished) >= 2 and sum(finished) > 0
+
+
+def test_hooghoudt_mixed_block_matches_bracketed_solver():
+    """Cases the closed-form start handles and cases only the bracketed solver handles
+    (drains on the barrier, a barrier within a radius or two of the drain, spacings of a
+    few radii, no solution) in one array, so one block takes both paths. Reference: the
+    bracketed solver on the library's own equation (as in the wide-range test above) and,
+    for D = 0, Donnan's q L^2 = 4 K h^2 (Hooghoudt 1940)."""
+    rng = np.random.default_rng(707)
+    n = 300
+    q, h = 10 ** rng.uniform(-3, -1.5, n), rng.uniform(0.1, 1.0, n)
+    k1, k2 = 10 ** rng.uniform(-2, 1, n), 10 ** rng.uniform(-2, 1, n)
+    r0 = rng.uniform(0.02, 0.2, n)
+    D = rng.uniform(0.5, 30.0, n)
+    kind = rng.integers(0, 4, n)
+    D = np.where(kind == 1, 0.0, D)                                   # drains on the barrier
+    D = np.where(kind == 2, r0 * rng.uniform(1.05, 3.0, n), D)       # barrier just below
+    q = np.where(kind == 3, q * 50.0, q)                              # narrow spacings
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", ConvergenceWarning)
+        L = hooghoudt_spacing(recharge=q, head=h, k_above=k1, k_below=k2, depth_to_barrier=D,
+                              drain_radius=r0)
+    on = kind == 1                  # the bracket of the reference is empty there
+    ref = _bracketed_hooghoudt(q, h, k1, k2, D, r0, "series")
+    assert np.array_equal(np.isnan(L[~on]), np.isnan(ref[~on]))
+    ok = ~np.isnan(ref) & ~on
+    assert ok.sum() > n // 2 and (kind[ok] == 0).any() and (kind[ok] == 2).any()
+    assert (kind[ok] == 3).any() and np.isnan(L).any()
+    assert_allclose(L[ok], ref[ok], rtol=1e-12, atol=1e-6)
+    donnan = np.sqrt(4.0 * k1 * h ** 2 / q)
+    wide = on & (donnan > 1.001 * np.pi * r0)        # wider than the drains themselves
+    assert wide.any() and np.isnan(L[on & (donnan < 0.999 * np.pi * r0)]).all()
+    assert_allclose(L[wide], donnan[wide], rtol=1e-9)

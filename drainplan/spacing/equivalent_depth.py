@@ -497,11 +497,16 @@ def _solve_block(A, B, D, r0, lo, hi, method, cap, kirkham, xtol):
     # d reaches D only for a barrier within about pi r0 of the drains (or no
     # barrier depth at all), or spacings within a few radii: those go to the
     # bracketed solver.
-    ok = (gamma > 0.05) & (L_D > 12.0 * r0) if cap else np.ones(n, dtype=bool)
+    if not cap or (gamma.min() > 0.05 and L_D.min() > 12.0 * r0.max()):
+        ok = None                    # all of them (checked on the extremes first)
+    else:
+        ok = (gamma > 0.05) & (L_D > 12.0 * r0)
     L0 = np.maximum(_spacing_estimate(A, B, D, pr, gamma, L_D), lo)
     small = (2.0 * _PI * D <= _X_SWITCH * L0) if method == "series" else (D <= 0.3 * L0)
     for branch in (True, False):
-        sel = ok & small if branch else ok & ~small
+        sel = small if branch else ~small
+        if ok is not None:
+            sel = sel & ok
         if sel.all():
             idx = slice(None)
         else:
@@ -510,18 +515,23 @@ def _solve_block(A, B, D, r0, lo, hi, method, cap, kirkham, xtol):
                 continue
         Ab, Bb, x = A[idx], B[idx], L0[idx]
         Db = D[idx]
-        wargs = _w_args(branch, method, kirkham, Db, r0[idx], gamma[idx])
-        prev = None
         if method == "series" and not kirkham:
-            # one Halley step with four terms of the series (cheap, ~1e-6 close)
-            g, g1, g2 = _g(_w_func(branch, method, kirkham, 4), x, Ab, Bb, wargs)
-            step = g / (g1 - 0.5 * g * g2 / g1)
-            x = x - step
-            prev = np.abs(step)
-        func = _w_func(branch, method, kirkham, 9)
-        L, good, _ = newton_block(lambda L, A, B, *wa: _g(func, L, A, B, wa), x, None,
-                                  None, (Ab, Bb, *wargs), xtol=xtol, rtol=0.0,
-                                  maxiter=8, prev=prev)
+            if branch:
+                p = np.divide(1.0, Db)
+                q = gamma[idx]
+                k2 = np.multiply(p, p)
+                k2 *= -0.25 * _PI * _PI
+            else:
+                p = np.multiply(Db, 2.0 * _PI)
+                q = np.log(pr[idx])
+                k2 = None
+            L, good = _two_halley_steps(branch, x, Ab, Bb, p, q, k2, xtol)
+        else:
+            wargs = _w_args(branch, method, kirkham, Db, r0[idx], gamma[idx])
+            func = _w_func(branch, method, kirkham, 9)
+            L, good, _ = newton_block(lambda L, A, B, *wa: _g(func, L, A, B, wa), x, None,
+                                      None, (Ab, Bb, *wargs), xtol=xtol, rtol=0.0,
+                                      maxiter=8)
         # the series chosen from the estimate must still be exact at the root
         if method == "series":
             if branch:
@@ -547,6 +557,131 @@ def _solve_block(A, B, D, r0, lo, hi, method, cap, kirkham, xtol):
         done &= ~((Lj > lo) & (Lj < (L_D if hi is None else hi)) & (w_deep * u > A)
                   & (w_shallow * u < A))
     return root, done
+
+
+# The series method's Halley step, fused: W, W' and W''/2 of one branch with the
+# constants folded into the coefficients, then G, G' and G''/2 and the step, with as
+# few array operations as the formulas allow (each costs Python's fixed price per
+# operation and a pass over the block).
+_SMALL_W = tuple(2.0 * e for e in _E[:9])                          # 2 sum e_m t^m
+_SMALL_W1 = tuple(_PI * m * e for m, e in enumerate(_E[:4], 1))     # pi sum m e_m t^m
+_LARGE_W = tuple(4.0 * c for c in _C[:9])                          # F = 4 sum c_m t^m
+_LARGE_W1 = tuple(8.0 * m * c for m, c in enumerate(_C[:4], 1))     # 8 sum m c_m t^m
+_LARGE_W2 = tuple(8.0 * m * m * c for m, c in enumerate(_C[:3], 1))  # 8 sum m^2 c_m t^m
+
+
+def _series_step(small, L, A, B, p, q, k2, full):
+    """Halley's step G / (G' - G G'' / (2 G')) for G = W (L - B/L) - A, series method.
+
+    ``small`` (x <= switch): p = 1/D, q = ln(D/(pi r0)), k2 = -(pi^2/4)/D^2, with
+    W = q + pi L/(8 D) - 2 sum e_m t^m, t = exp(-pi L/(2 D)); otherwise p = 2 pi D,
+    q = ln(pi r0), W = ln L - q + 4 sum c_m t^m, t = exp(-2x), x = p/L (the series of
+    :func:`molen_wesseling_f`). ``full``: nine terms for W (four for W', three for W'');
+    else two (one for the derivatives), for the first step.
+    """
+    inv_l = np.divide(1.0, L)
+    if small:
+        s = np.multiply(L, p)
+        t = np.multiply(s, -0.5 * _PI)
+        np.exp(t, out=t)
+        w = np.multiply(s, 0.125 * _PI, out=s)
+        w += q
+        if full:
+            w -= _horner(t, _SMALL_W)
+            w1 = _horner(t, _SMALL_W1)
+        else:
+            r = np.subtract(t, 2.0)
+            r *= t
+            w += r                                  # - 2 (t - t^2 / 2)
+            w1 = np.multiply(t, _PI)
+        w1 += 0.125 * _PI
+        w1 *= p                                     # W'
+        h = np.multiply(t, k2, out=t)               # W'' / 2 (first term)
+    else:
+        x = np.multiply(p, inv_l)
+        t = np.multiply(x, -2.0)
+        np.exp(t, out=t)
+        w = np.log(L)
+        w -= q
+        if full:
+            w += _horner(t, _LARGE_W)
+            xq = _horner(t, _LARGE_W1)
+            h = _horner(t, _LARGE_W2)
+        else:
+            f = np.add(t, 1.0)
+            f *= t
+            f *= 4.0
+            w += f
+            xq = np.multiply(t, 8.0)
+            h = xq.copy()
+        xq *= x                                     # 8 x sum m c_m t^m
+        h *= x
+        h *= x
+        h -= 0.5
+        h -= xq                                     # (L^2 / 2) W''
+        w1 = np.add(xq, 1.0, out=xq)
+        w1 *= inv_l                                 # W'
+        h *= inv_l
+        h *= inv_l                                  # W'' / 2
+    bl = np.multiply(B, inv_l)
+    u = np.subtract(L, bl)                          # u = L - B / L
+    bl *= inv_l
+    u1 = np.add(bl, 1.0)                            # u' = 1 + B / L^2
+    g = np.multiply(w, u)
+    g -= A                                          # G
+    g1 = np.multiply(w, u1)
+    h *= u
+    bl *= inv_l
+    bl *= w
+    h -= bl                                         # W'' u / 2 + W u'' / 2
+    u1 *= w1
+    h += u1                                         # G'' / 2
+    w1 *= u
+    g1 += w1                                        # G'
+    h *= g
+    h /= g1
+    np.subtract(g1, h, out=h)
+    g /= h
+    return g
+
+
+def _two_halley_steps(small, x, A, B, p, q, k2, xtol):
+    """The root of G for one branch of the series method: one Halley step with two
+    terms of the series (within about 1e-4 m of the root from the estimate), one with
+    all of them; then the stop rule of :func:`drainplan._solve.newton_block` (the
+    error the second step's size predicts), which ends practically every case; the
+    cases it does not end carry on in ``newton_block``."""
+    from .._solve import newton_block
+
+    step = _series_step(small, x, A, B, p, q, k2, False)
+    x = np.subtract(x, step)
+    prev = np.abs(step, out=step)
+    step = _series_step(small, x, A, B, p, q, k2, True)
+    x -= step
+    a = np.abs(step, out=step)
+    c = 0.25 * xtol
+    # newton_block's stop, case by case (Halley: a^3 <= c x^2, a^4 <= c prev^3,
+    # a <= prev / 4; or a <= xtol)
+    e = np.multiply(a, a)
+    e *= a
+    stop = e <= c * (x * x)
+    e *= a
+    p3 = np.multiply(prev, prev)
+    p3 *= prev
+    p3 *= c
+    stop &= e <= p3
+    prev *= 0.25
+    stop &= a <= prev
+    stop |= a <= xtol
+    rest = np.flatnonzero(~stop)
+    if rest.size:
+        func = _w_func(small, "series", False, 9)
+        L, good, _ = newton_block(lambda L, A, B, *wa: _g(func, L, A, B, wa), x[rest], None,
+                                  None, (A[rest], B[rest], p[rest], q[rest], 0.0, 0.0),
+                                  xtol=xtol, rtol=0.0, maxiter=7, prev=a[rest])
+        x[rest] = L
+        stop[rest] = good
+    return x, stop
 
 
 def _g(wfun, L, A, B, wargs):
