@@ -275,7 +275,8 @@ def report(rows, startup, args):
     head = (f"Measured {time.strftime('%Y-%m-%d %H:%M UTC', time.gmtime())} on "
             f"{platform.machine()}, {os.cpu_count()} cores (shared), Python "
             f"{platform.python_version()}, numpy {np.__version__}, one BLAS thread "
-            f"(`python benchmarks/bench_spacing.py{' --quick' if args.quick else ''} --write`).")
+            f"(`python benchmarks/bench_spacing.py{' --quick' if args.quick else ''}"
+            f"{f' --runs {args.runs}' if args.runs > 1 else ''} --write`).")
     lines = ["## Spacing solvers", "", head, "",
              "CPU time of the solving thread, best of "
              + ", ".join(f"{len(FLOOR_BLOCKS) * rounds(args.repeat, n)} runs at {n:,} cases"
@@ -381,15 +382,16 @@ def main():
     args.scalar_cases = 300 if args.quick else 1500
     args.startup_repeat = 3 if args.quick else 7
     if args.default_allocator:
-        print(json.dumps(bench_methods(sizes[-1:], args.scalar_cases, args.repeat, only=1)))
+        print(json.dumps(best_rows([bench_methods(sizes[-1:], args.scalar_cases, args.repeat,
+                                                  only=1) for _ in range(max(1, args.runs))])))
         return
     from drainplan.cli import tune_allocator
 
     args.tuned = tune_allocator()
     rows = best_rows([bench_methods(sizes, args.scalar_cases, args.repeat)
                       for _ in range(max(1, args.runs))])
-    out = subprocess.run([sys.executable, __file__, "--default-allocator"]
-                         + (["--quick"] if args.quick else []),
+    out = subprocess.run([sys.executable, __file__, "--default-allocator",
+                          f"--runs={args.runs}"] + (["--quick"] if args.quick else []),
                          capture_output=True, text=True, check=True).stdout
     for r in json.loads(out.strip().splitlines()[-1]):
         r["name"] += ", default allocator"
