@@ -66,16 +66,25 @@ def build_and_design(fields, lay, outlets, surface, opts):
     carriers += [Carrier(f"{ids[f]}-S{k}", "submain", ids[f], g,
                          main_id[f] if t[0] == "main" else f"{ids[f]}-S{t[1]}")
                  for k, (g, f, t) in enumerate(zip(sub.lines, sub.field_of, sub.to))]
-    runs = []
-    for k, (g, f) in enumerate(zip(lay.laterals, lay.lateral_field)):
-        if lay.mains[f] is None:
-            continue
-        c = shapely.get_coordinates(g)
-        m = lay.mains[f]
-        near = int(np.argmin(shapely.distance(shapely.points(c), m)))
-        j = np.asarray(m.interpolate(m.project(shapely.Point(c[near]))).coords[0])
-        runs.append(LateralRun(f"L{k}", ids[f], shapely.LineString([c[1 - near], j]),
-                               float(g.length), lay.spacing, main_id[f]))
+    # each lateral from its far end to the nearest point of its field's main (the end
+    # nearer the main joins it), built for all laterals at once
+    has = np.array([lay.mains[f] is not None for f in lay.lateral_field], bool)
+    ks = np.flatnonzero(has)
+    fk = lay.lateral_field[ks]
+    xy, which = shapely.get_coordinates(lay.laterals[ks], return_index=True)
+    first = np.searchsorted(which, np.arange(len(ks)))
+    last = np.r_[first[1:], len(which)] - 1
+    m = lay.mains[fk]
+    ends = np.stack([xy[first], xy[last]], axis=1)
+    d = shapely.distance(shapely.points(ends), m[:, None])
+    near = (d[:, 1] < d[:, 0]).astype(int)          # first end on a tie, as argmin
+    pick = np.arange(len(ks))
+    j = shapely.get_coordinates(shapely.line_interpolate_point(
+        m, shapely.line_locate_point(m, shapely.points(ends[pick, near]))))
+    lines = shapely.linestrings(np.stack([ends[pick, 1 - near], j], axis=1))
+    length = shapely.length(lay.laterals[ks])
+    runs = [LateralRun(f"L{k}", ids[f], g, float(L), lay.spacing, main_id[f])
+            for k, f, g, L in zip(ks.tolist(), fk.tolist(), lines, length)]
     return design_network(runs, carriers, opts, surface=surface), len(runs), len(carriers)
 
 

@@ -17,11 +17,11 @@ from dataclasses import dataclass, field
 
 import numpy as np
 import shapely
-from shapely.ops import substring
 
 from ..errors import InputError
 from .fields import drainable_regions, long_axis_bearing
-from .laterals import LateralSet, edge_crossings, frame_axes, polygon_edges, scan_laterals
+from .laterals import (LateralSet, edge_crossings, frame_axes, order_by_group, polygon_edges,
+                       scan_laterals)
 
 __all__ = ["LayoutOptions", "Layout", "layout_fields", "COMPASS"]
 
@@ -122,14 +122,16 @@ class Layout:
         lat_len = cnt(self.lateral_field, self.lateral_length)
         runs = np.zeros(n)
         if self.lateral_field.size:
-            key = np.unique(np.stack([self.lateral_field, self.lateral_line,
-                                      self.lateral_side], axis=1), axis=0)
-            runs = cnt(key[:, 0])
+            first = _first_of_runs(self.lateral_field, self.lateral_line, self.lateral_side)
+            runs = cnt(self.lateral_field[first])
         con_len = cnt(self.connector_field, shapely.length(self.connectors)
                       if self.connectors.size else None)
         unc_len = cnt(self.unconnected_field, shapely.length(self.unconnected)
                       if self.unconnected.size else None)
-        main_len = np.array([shapely.length(m) if m is not None else 0.0 for m in self.mains])
+        mains = np.asarray(self.mains, dtype=object)
+        main_len = np.zeros(n)
+        has_main = np.array([m is not None for m in mains], bool)
+        main_len[has_main] = shapely.length(mains[has_main])
         area = np.asarray(field_area, float)
         per = {
             "laterals": runs.astype(int),
@@ -151,6 +153,22 @@ class Layout:
         return per, tot
 
 
+def _first_of_runs(field, line, side):
+    """Index of the first piece of each lateral run (field, line, side), runs in
+    (field, line, side) order, as ``numpy.unique(..., axis=0, return_index=True)`` on
+    the stacked keys: one stable sort of a combined integer key."""
+    n_line = int(line.max()) + 1 if line.size else 1
+    if line.size and (line.min() < 0 or (int(field.max()) + 1) * n_line >= 2 ** 61):
+        order = np.lexsort((side, line, field))
+        f, ln, sd = field[order], line[order], side[order]
+        new = np.r_[True, (f[1:] != f[:-1]) | (ln[1:] != ln[:-1]) | (sd[1:] != sd[:-1])]
+        return order[new]
+    key = (field.astype(np.int64) * n_line + line) * 2 + (side > 0)
+    order = np.argsort(key, kind="stable")
+    k = key[order]
+    return order[np.r_[True, k[1:] != k[:-1]]]
+
+
 def _bearings(fields, direction):
     if isinstance(direction, np.ndarray):      # one bearing per field
         return np.where(np.isfinite(direction), direction % 180.0, long_axis_bearing(fields))
@@ -165,61 +183,242 @@ def _bearings(fields, direction):
     return np.full(len(fields), b % 180.0)
 
 
-def _main_chain(poly, u, v, low_side):
-    """The stretch of a polygon's outer ring that faces one end of the laterals.
+def _main_chains(polys, u, v, low_side):
+    """The stretch of each polygon's outer ring that faces one end of its laterals.
 
-    Edges whose outward normal points within 60 degrees of the chosen end
-    (-u for the low side, +u for the high side) face it; the run of consecutive
-    facing edges that spans the most across the laterals is the edge along which
-    the main runs (within 85 degrees where the squarely facing edges span too
-    little, as at a corner cut by a short edge). Returns a LineString ordered by
-    increasing s, or None.
+    For every polygon (the largest part of a multipolygon), edges whose outward
+    normal points within 60 degrees of the chosen end (-u for the low side, +u for
+    the high side) face it; the run of consecutive facing edges that spans the most
+    across the laterals is the edge along which the main runs (within 85 degrees
+    where the squarely facing edges span too little, as at a corner cut by a short
+    edge). All polygons at once: one pass over all ring edges, runs found by sorting.
+
+    Parameters
+    ----------
+    polys : array of (Multi)Polygon
+    u, v : arrays, shape (n, 2)
+        Frame axes of each polygon (along and across the laterals).
+    low_side : array of bool
+        True for the main at the low-t end of the laterals.
+
+    Returns
+    -------
+    array of LineString or None
+        Per polygon, the main ordered by increasing s; None where no edge faces.
     """
-    parts = shapely.get_parts(poly)
-    parts = parts[shapely.get_type_id(parts) == 3]
+    polys = np.asarray(polys, dtype=object)
+    n = polys.size
+    out = np.full(n, None, dtype=object)
+    if n == 0:
+        return out
+    parts, owner = shapely.get_parts(polys, return_index=True)
+    is_poly = shapely.get_type_id(parts) == 3
+    parts, owner = parts[is_poly], owner[is_poly]
     if parts.size == 0:
-        return None
-    main_part = shapely.orient_polygons(parts[np.argmax(shapely.area(parts))])
-    ring = np.asarray(main_part.exterior.coords)   # counter-clockwise, closed
-    d = np.diff(ring, axis=0)
+        return out
+    # the largest part of each polygon (the first of equal ones)
+    order = np.lexsort((-shapely.area(parts), owner))
+    owner_o = owner[order]
+    first = order[np.r_[True, owner_o[1:] != owner_o[:-1]]]
+    main_part, pid = shapely.orient_polygons(parts[first]), owner[first]
+    xy, ring = shapely.get_coordinates(shapely.get_exterior_ring(main_part),
+                                       return_index=True)     # closed, counter-clockwise
+    if ring.size < 2:
+        return out
+    same = ring[1:] == ring[:-1]
+    estart = np.flatnonzero(same)                 # index in xy of each edge's start
+    er = ring[estart]                             # edge -> ring
+    d = xy[estart + 1] - xy[estart]
     length = np.hypot(d[:, 0], d[:, 1])
-    normal = np.stack([d[:, 1], -d[:, 0]], axis=1)          # outward for CCW
-    toward = -u if low_side else u
-    cosine = (normal @ toward) / np.maximum(length, 1e-12)
-    across = np.abs(d @ v)                                   # span across the laterals
+    f = pid[er]
+    toward = np.where(low_side[f][:, None], -u[f], u[f])
+    # outward normal (d_y, -d_x) of a counter-clockwise ring
+    cosine = (d[:, 1] * toward[:, 0] - d[:, 0] * toward[:, 1]) / np.maximum(length, 1e-12)
+    across = np.abs(d[:, 0] * v[f][:, 0] + d[:, 1] * v[f][:, 1])
+    n_ring = main_part.size
+    m_edges = np.bincount(er, minlength=n_ring)
+    ebase = np.r_[0, np.cumsum(m_edges)[:-1]]
+    e = np.arange(er.size) - ebase[er]            # edge number within its ring
 
-    def best_run(facing):
-        if not np.any(facing):
-            return None
-        m = facing.size
-        if np.all(facing):
-            return list(range(m))
-        start = int(np.flatnonzero(~facing)[0])              # begin after a gap
-        runs, cur = [], []
-        for j in range(1, m + 1):
-            e = (start + j) % m
-            if facing[e]:
-                cur.append(e)
-            elif cur:
-                runs.append(cur)
-                cur = []
-        if cur:
-            runs.append(cur)
-        return max(runs, key=lambda r: across[r].sum())
+    def best_runs(facing):
+        """The best run of consecutive facing edges of every ring, walking each ring
+        from just after its first non-facing edge (so no run wraps round), as
+        ``max(runs, key=span)`` would pick it (the first of equal spans).
 
-    # edges facing the chosen end squarely (within 60 degrees); where a field's end is
-    # oblique to the laterals that leaves only short pieces (a corner cut by a short
-    # edge), so fall back to every edge that faces the end at all (within 85 degrees)
-    best = best_run(cosine > 0.5)
-    wide = best_run(cosine > 0.087)
-    if best is None or (wide is not None and across[best].sum() < 0.8 * across[wide].sum()):
-        best = wide
-    if best is None:
-        return None
-    coords = np.vstack([ring[best], ring[best[-1] + 1]])
-    if coords[0] @ v > coords[-1] @ v:
-        coords = coords[::-1]
-    return shapely.LineString(coords)
+        Returns per ring the run's number (-1 where no edge faces) and its span
+        across the laterals, then the walking order of the edges, their facing
+        flags and run numbers in that order."""
+        gap = np.where(~facing, e, np.iinfo(np.int64).max)
+        start = np.full(n_ring, np.iinfo(np.int64).max)
+        np.minimum.at(start, er, gap)
+        all_facing = start == np.iinfo(np.int64).max
+        start = np.where(all_facing, -1, start)
+        pos = (e - start[er] - 1) % m_edges[er]
+        walk = np.lexsort((pos, er))
+        fw, rw = facing[walk], er[walk]
+        new = fw & np.r_[True, (~fw[:-1]) | (rw[1:] != rw[:-1])]
+        run = np.cumsum(new) - 1
+        runs = np.flatnonzero(new)
+        if runs.size == 0:
+            return np.full(n_ring, -1), np.zeros(n_ring), walk, fw, run
+        total = np.bincount(run[fw], weights=across[walk][fw], minlength=runs.size)
+        run_ring = rw[runs]
+        pick = np.lexsort((np.arange(runs.size), -total, run_ring))
+        pick = pick[np.r_[True, run_ring[pick][1:] != run_ring[pick][:-1]]]
+        best = np.full(n_ring, -1)
+        best[run_ring[pick]] = pick
+        best_total = np.zeros(n_ring)
+        best_total[run_ring[pick]] = total[pick]
+        return best, best_total, walk, fw, run
+
+    sq = best_runs(cosine > 0.5)
+    wd = best_runs(cosine > 0.087)
+    use_wide = (sq[0] < 0) | ((wd[0] >= 0) & (sq[1] < 0.8 * wd[1]))
+    chosen = np.where(use_wide, wd[0], sq[0])
+    # edges of the chosen run, in walking order
+    pts, idx = [], []
+    for which, rings in ((sq, ~use_wide & (chosen >= 0)), (wd, use_wide & (chosen >= 0))):
+        best, _, walk, fw, run = which
+        sel = fw & rings[er[walk]] & (run == best[er[walk]])
+        edges = walk[sel]
+        pts.append(estart[edges])
+        idx.append(er[edges])
+    pts, idx = np.concatenate(pts), np.concatenate(idx)
+    if idx.size == 0:
+        return out
+    # keep the walking order within a ring, add the end of each run's last edge
+    order = np.argsort(idx, kind="stable")
+    pts, idx = pts[order], idx[order]
+    last = np.r_[idx[1:] != idx[:-1], True]
+    k = np.arange(idx.size) + np.cumsum(np.r_[False, last[:-1]])   # room for the ends
+    all_pts = np.empty(idx.size + int(last.sum()), dtype=np.int64)
+    all_idx = np.empty_like(all_pts)
+    all_pts[k], all_idx[k] = pts, idx
+    all_pts[k[last] + 1], all_idx[k[last] + 1] = pts[last] + 1, idx[last]
+    coords = xy[all_pts]
+    # order each main by increasing s
+    first_pt = np.r_[True, all_idx[1:] != all_idx[:-1]]
+    last_pt = np.r_[first_pt[1:], True]
+    rings_used = all_idx[first_pt]
+    vf = v[pid[rings_used]]
+    s_first = coords[first_pt][:, 0] * vf[:, 0] + coords[first_pt][:, 1] * vf[:, 1]
+    s_last = coords[last_pt][:, 0] * vf[:, 0] + coords[last_pt][:, 1] * vf[:, 1]
+    flip = np.zeros(n_ring, bool)
+    flip[rings_used] = s_first > s_last
+    within = np.arange(all_idx.size) - np.flatnonzero(first_pt)[np.cumsum(first_pt) - 1]
+    count = np.bincount(all_idx, minlength=n_ring)
+    key = np.where(flip[all_idx], count[all_idx] - 1 - within, within)
+    order = np.lexsort((key, all_idx))
+    lines = shapely.linestrings(coords[order], indices=(np.cumsum(first_pt) - 1)[order])
+    out[pid[rings_used]] = lines
+    return out
+
+
+def _low_sides(bearing, side, fields, outlet, low_end):
+    """Per field, True when the main goes at the low-t end of the laterals (-u):
+    :func:`_side_is_low` for all fields at once, or ``low_end`` where given."""
+    n = bearing.size
+    u, _ = frame_axes(bearing)
+    if side != "auto":
+        want = np.radians(COMPASS[side])
+        return np.sin(want) * u[:, 0] + np.cos(want) * u[:, 1] < 0
+    low = np.ones(n, bool)
+    if outlet is not None:
+        c = shapely.get_coordinates(shapely.centroid(fields), include_z=False)
+        has_c = ~shapely.is_empty(fields)
+        full = np.full((n, 2), np.nan)
+        full[has_c] = c
+        d = np.broadcast_to(np.asarray(outlet, float), (n, 2)) - full
+        with np.errstate(invalid="ignore"):
+            low = np.where(has_c, d[:, 0] * u[:, 0] + d[:, 1] * u[:, 1] < 0, True)
+    if low_end is not None:
+        given = np.array([e is not None for e in low_end], bool)
+        low[given] = np.array([bool(e) for e in np.asarray(low_end, dtype=object)[given]],
+                              bool)
+    return low
+
+
+def _trim_mains(mains, junctions, jfield, outlet):
+    """Trim each field's main to the stretch between its first and last junction and
+    orient it towards the outlet (downstream end last).
+
+    Returns the trimmed mains (None where a field has no junction or a single
+    junction point) and the outlet points (the downstream end, or the junction
+    itself where the main shrinks to a point). All fields at once.
+    """
+    n = mains.size
+    new = np.full(n, None, dtype=object)
+    outlets = np.full(n, None, dtype=object)
+    has_main = np.array([m is not None for m in mains], bool)
+    if jfield.size == 0 or not np.any(has_main):
+        return new, outlets
+    # junctions grouped by field (they come sorted); positions along their field's main
+    if np.any(jfield[1:] < jfield[:-1]):
+        by_field = np.argsort(jfield, kind="stable")
+        jfield, junctions = jfield[by_field], junctions[by_field]
+    jm = has_main[jfield]
+    jf, jp = jfield[jm], junctions[jm]
+    if jf.size == 0:
+        return new, outlets
+    pos = shapely.line_locate_point(mains[jf].astype(object), jp)
+    starts = np.flatnonzero(np.r_[True, jf[1:] != jf[:-1]])
+    fids = jf[starts]
+    lo = np.minimum.reduceat(pos, starts)
+    hi = np.maximum.reduceat(pos, starts)
+    first_junction = jp[starts]
+    line = mains[fids].astype(object)
+    # the stretch between lo and hi: the two interpolated ends and the vertices
+    # strictly between them (as shapely.ops.substring)
+    trim = hi > lo
+    a = shapely.line_interpolate_point(line[trim], lo[trim])
+    b = shapely.line_interpolate_point(line[trim], hi[trim])
+    xy, li = shapely.get_coordinates(line[trim], return_index=True)
+    nv = np.bincount(li, minlength=int(trim.sum()))
+    vbase = np.r_[0, np.cumsum(nv)[:-1]]
+    k = np.arange(li.size) - vbase[li]
+    seg = np.zeros(li.size)
+    nxt = np.r_[li[1:] == li[:-1], False]
+    dxy = xy[1:] - xy[:-1]
+    seg[:-1] = np.where(nxt[:-1], np.sqrt(dxy[:, 0] ** 2 + dxy[:, 1] ** 2), 0.0)
+    # distance along the line to each vertex, summed vertex by vertex (one numpy
+    # step per vertex position, over all lines)
+    cum = np.zeros(li.size)
+    by_k = np.argsort(k, kind="stable")
+    k_bounds = np.searchsorted(k[by_k], np.arange(int(nv.max()) + 1 if nv.size else 1))
+    for j in range(1, k_bounds.size - 1):
+        at = by_k[k_bounds[j]:k_bounds[j + 1]]
+        cum[at] = cum[at - 1] + seg[at - 1]
+    inner = (k < nv[li] - 1) & (cum > lo[trim][li]) & (cum < hi[trim][li])
+    ends_a = shapely.get_coordinates(a)
+    ends_b = shapely.get_coordinates(b)
+    t_idx = np.arange(trim.sum())
+    pts = np.concatenate([ends_a, xy[inner], ends_b])
+    owner = np.concatenate([t_idx, li[inner], t_idx])
+    rank = np.concatenate([np.full(t_idx.size, -1), k[inner], np.full(t_idx.size, 1 << 40)])
+    order = np.lexsort((rank, owner))
+    pts, owner = pts[order], owner[order]
+    # towards the outlet: the end nearer it goes last (the first end if equally near)
+    if outlet is not None:
+        o = np.broadcast_to(np.asarray(outlet, float), (n, 2))[fids[trim]]
+        d_a = np.hypot(*(ends_a - o).T)
+        d_b = np.hypot(*(ends_b - o).T)
+        # (as numpy's argmin of the two distances: a NaN counts as the nearest)
+        flip = np.isnan(d_a) | (~np.isnan(d_b) & (d_a <= d_b))
+    else:
+        flip = np.zeros(t_idx.size, bool)
+    counts = np.bincount(owner, minlength=t_idx.size)
+    obase = np.r_[0, np.cumsum(counts)[:-1]]
+    within = np.arange(owner.size) - obase[owner]
+    order = np.lexsort((np.where(flip[owner], -within, within), owner))
+    lines = shapely.linestrings(pts[order], indices=owner[order]) if t_idx.size \
+        else np.empty(0, dtype=object)
+    ok = shapely.length(lines) >= _TOL
+    f_trim = fids[trim]
+    new[f_trim[ok]] = lines[ok]
+    outlets[f_trim[ok]] = shapely.points(np.where(flip[ok][:, None], ends_a[ok], ends_b[ok]))
+    point_only = np.concatenate([fids[~trim], f_trim[~ok]])
+    outlets[point_only] = np.concatenate([first_junction[~trim], first_junction[trim][~ok]])
+    return new, outlets
 
 
 def _center_line(poly, bearing):
@@ -340,12 +539,13 @@ def layout_fields(fields, options, *, exclusions=None, exclusion_setbacks=None,
                          f"laterals: {width[present].max():.1f} m)", param="spacing")
 
     # work areas: one per field (parallel pattern) or two halves (herringbone)
-    sub_owner, sub_region, sub_bearing, sub_main = [], [], [], []
     mains = np.full(n, None, dtype=object)
-    for f in np.flatnonzero(present):
-        user = user_mains[f] if user_mains is not None else None
-        if options.pattern == "herringbone":
-            center = user if user is not None else _center_line(insets[f], bearing[f])
+    user = np.asarray(user_mains, dtype=object) if user_mains is not None \
+        else np.full(n, None, dtype=object)
+    if options.pattern == "herringbone":
+        sub_owner, sub_region, sub_bearing, sub_main = [], [], [], []
+        for f in np.flatnonzero(present):
+            center = user[f] if user[f] is not None else _center_line(insets[f], bearing[f])
             mains[f] = center
             if center is None:
                 continue
@@ -359,37 +559,37 @@ def layout_fields(fields, options, *, exclusions=None, exclusion_setbacks=None,
                 sub_bearing.append((bearing[f] + sign * upstream * options.herringbone_angle)
                                    % 180.0)
                 sub_main.append(center)
-        else:
-            if user is not None:
-                mains[f] = user
-            else:
-                if low_end is not None and options.main_side == "auto" \
-                        and low_end[f] is not None:
-                    low = bool(low_end[f])
-                else:
-                    low = _side_is_low(bearing[f], options.main_side, fields_filled[f],
-                                       outlet_of(f))
-                mains[f] = _main_chain(insets[f], u_all[f], v_all[f], low)
-            sub_owner.append(f)
-            sub_region.append(regions[f])
-            sub_bearing.append(bearing[f])
-            sub_main.append(mains[f])
-    sub_owner = np.array(sub_owner, dtype=int)
+        sub_owner = np.array(sub_owner, dtype=int)
+        sub_region = np.array(sub_region + [None], dtype=object)[:sub_owner.size]
+        sub_main = np.array(sub_main + [None], dtype=object)[:sub_owner.size]
+        sub_bearing = np.array(sub_bearing, dtype=float)
+    else:
+        # the edge main of every field without a drawn one, all fields at once
+        drawn = present & np.array([g is not None for g in user], bool)
+        edge = present & ~drawn
+        mains[drawn] = user[drawn]
+        if np.any(edge):
+            low = _low_sides(bearing[edge], options.main_side, fields_filled[edge],
+                             outlet if outlet is None or np.ndim(outlet) < 2
+                             else np.asarray(outlet, float)[edge],
+                             None if low_end is None
+                             else np.asarray(low_end, dtype=object)[edge])
+            mains[edge] = _main_chains(insets[edge], u_all[edge], v_all[edge], low)
+        sub_owner = np.flatnonzero(present)
+        sub_region, sub_bearing, sub_main = regions[present], bearing[present], mains[present]
     m = sub_owner.size
-    sub_region = np.array(sub_region + [None], dtype=object)[:m]
-    sub_main = np.array(sub_main + [None], dtype=object)[:m]
-    sub_bearing = np.array(sub_bearing, dtype=float)
 
     pieces, grid = scan_laterals(sub_region, sub_bearing, L, offset=options.offset,
                                  n_fields=m)
     # pieces shorter than a micrometre are where a scan line grazes a vertex or a
     # zero-width spike of the boundary: not laterals, and not counted as dropped
-    pieces = pieces.subset(pieces.length >= 1e-6)
-    short = pieces.length < options.min_length
+    length = pieces.length
+    real = length >= 1e-6
+    short = real & (length < options.min_length)
     dropped_count = np.bincount(sub_owner[pieces.field[short]], minlength=n)
     dropped_length = np.bincount(sub_owner[pieces.field[short]],
-                                 weights=pieces.length[short], minlength=n)
-    pieces = pieces.subset(~short)
+                                 weights=length[short], minlength=n)
+    pieces = pieces.subset(real & ~short)
 
     conn = _connect(pieces, grid, sub_main, fields_filled[sub_owner], zones[sub_owner],
                     features[sub_owner], options.cross_setbacks)
@@ -409,8 +609,7 @@ def layout_fields(fields, options, *, exclusions=None, exclusion_setbacks=None,
     junctions = np.empty(0, dtype=object)
     jfield = jline = jside = np.empty(0, int)
     if lat.field.size:
-        _, first = np.unique(np.stack([lat.field, lat.line, side], axis=1), axis=0,
-                             return_index=True)
+        first = _first_of_runs(lat.field, lat.line, side)
         js = lat.field[first]
         jp = lat.s[first][:, None] * grid.v[js] + t_m[first][:, None] * grid.u[js]
         junctions = shapely.points(jp)
@@ -423,32 +622,7 @@ def layout_fields(fields, options, *, exclusions=None, exclusion_setbacks=None,
     con_line = con_run[0] + line_offset[con_sub] if con_sub.size else con_run[0]
 
     # trim each main to its junctions, orient it towards the outlet
-    outlets = np.full(n, None, dtype=object)
-    j_order = np.argsort(jfield, kind="stable")
-    j_bounds = np.searchsorted(jfield[j_order], np.arange(n + 1))
-    for f in range(n):
-        mf = mains[f]
-        if mf is None:
-            continue
-        js = junctions[j_order[j_bounds[f]:j_bounds[f + 1]]]
-        if js.size == 0:
-            mains[f] = None
-            continue
-        pos = shapely.line_locate_point(mf, js)
-        mf = substring(mf, pos.min(), pos.max()) if pos.max() > pos.min() else None
-        if mf is None or shapely.length(mf) < _TOL:
-            mains[f] = None
-            outlets[f] = js[0]
-            continue
-        ends = np.asarray(mf.coords)[[0, -1]]
-        if outlet_of(f) is not None:
-            downstream = int(np.argmin(np.hypot(*(ends - np.asarray(outlet_of(f))).T)))
-        else:
-            downstream = 1
-        if downstream == 0:
-            mf = shapely.reverse(mf)
-        mains[f] = mf
-        outlets[f] = shapely.Point(np.asarray(mf.coords)[-1])
+    mains, outlets = _trim_mains(mains, junctions, jfield, outlet)
     if np.any(connected == 0):
         notes.append(f"{int((~connected).sum())} lateral piece(s) cannot reach the main "
                      "without leaving the field or crossing an exclusion; they need a "
@@ -477,18 +651,13 @@ def _connect(pieces, grid, mains, fields, zones, features, cross_setbacks):
     their field index.
     """
     # crossing of every scan line with its field's main
-    a_list, b_list, o_list = [], [], []
-    for f, m in enumerate(mains):
-        if m is None:
-            continue
-        c = np.asarray(m.coords)
-        a_list.append(c[:-1])
-        b_list.append(c[1:])
-        o_list.append(np.full(len(c) - 1, f))
+    mains = np.asarray(mains, dtype=object)
+    has_main = np.flatnonzero([m is not None for m in mains])
+    c, ci = shapely.get_coordinates(mains[has_main], return_index=True)
+    seg = np.flatnonzero(ci[1:] == ci[:-1])           # segments of the mains, in order
     t_main_line = np.full(int(grid.n_lines.sum()), np.nan)
-    if a_list:
-        mf, mk, _, mt = edge_crossings(np.concatenate(a_list), np.concatenate(b_list),
-                                       np.concatenate(o_list), grid)
+    if seg.size:
+        mf, mk, _, mt = edge_crossings(c[seg], c[seg + 1], has_main[ci[seg]], grid)
         g = grid.line_base[mf] + mk
         # several crossings on one line: keep the one nearest the field's lowest t
         order = np.lexsort((mt, g))
@@ -525,7 +694,7 @@ def _connect(pieces, grid, mains, fields, zones, features, cross_setbacks):
     near = np.where(side < 0, pieces.t1, pieces.t0)     # end facing the main
     far = np.where(side < 0, pieces.t0, pieces.t1)
     dist = np.abs(near - np.where(has_main, tm, 0.0))
-    order = np.lexsort((dist, side, gl))
+    order = order_by_group(2 * gl + (side > 0), dist)     # as lexsort((dist, side, gl))
     inv = np.empty(m, int)
     inv[order] = np.arange(m)
     gl_o, side_o = gl[order], side[order]
@@ -546,7 +715,11 @@ def _connect(pieces, grid, mains, fields, zones, features, cross_setbacks):
         p0 = s_i[:, None] * v_i + from_t[idx][:, None] * u_i
         p1 = s_i[:, None] * v_i + to_t[idx][:, None] * u_i
         cand = shapely.linestrings(np.stack([p0, p1], axis=1))
-        valid = shapely.covered_by(cand, shapely.buffer(fields[f_i].astype(object), _TOL))
+        # each field buffered once (prepared: it is tested against many connectors)
+        uf, which = np.unique(f_i, return_inverse=True)
+        grown = shapely.buffer(fields[uf].astype(object), _TOL)
+        shapely.prepare(grown)
+        valid = shapely.covered_by(cand, grown[which])
         valid &= ~shapely.intersects(cand, features[f_i].astype(object))
         if not cross_setbacks:
             overlap = shapely.length(shapely.intersection(cand, zones[f_i].astype(object)))

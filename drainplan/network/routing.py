@@ -86,30 +86,41 @@ class _Visibility:
         ok = shapely.covered_by(seg, self.cover) if i.size else np.zeros(0, bool)
         self.i, self.j = i[ok], j[ok]
         self.w = np.hypot(*(self.xy[self.i] - self.xy[self.j]).T)
+        # the corner links as rows 1..n of a sparse matrix (row-major, as triu_indices
+        # gives them); node 0, the start of each path, is put in front per path
+        self._ptr = np.concatenate(([0], np.cumsum(np.bincount(self.i, minlength=n))))
+        self._cols = self.j + 1
 
     def path(self, start, targets):
         """Shortest path from ``start`` (x, y) to the nearest visible point of
         ``targets`` (a line geometry) inside the area; LineString or None."""
         import shapely
-        from scipy.sparse import coo_matrix
+        from scipy.sparse import csr_matrix
         from scipy.sparse.csgraph import dijkstra
 
         start = np.asarray(start, float)
         n = len(self.xy)
         nodes = np.vstack([start[None, :], self.xy])          # node 0 is the start
-        to_node = shapely.linestrings(np.stack([np.broadcast_to(start, self.xy.shape),
-                                                self.xy], axis=1)) if n else \
-            np.empty(0, dtype=object)
-        sees = shapely.covered_by(to_node, self.cover) if n else np.zeros(0, bool)
-        # each node's nearest point of the targets, if in sight
         pts = shapely.points(nodes)
+        # sight lines to every corner and each node's nearest point of the targets,
+        # checked against the area in one call
         links = shapely.shortest_line(pts, targets)
-        reach = shapely.covered_by(links, self.cover)
+        if n:
+            to_node = shapely.linestrings(np.stack([np.broadcast_to(start, self.xy.shape),
+                                                    self.xy], axis=1))
+            inside = shapely.covered_by(np.concatenate((to_node, links)), self.cover)
+            sees, reach = inside[:n], inside[n:]
+        else:
+            sees, reach = np.zeros(0, bool), shapely.covered_by(links, self.cover)
         cost_t = np.where(reach, shapely.length(links), np.inf)
-        rows = np.r_[np.zeros(int(sees.sum()), int), self.i + 1]
-        cols = np.r_[np.flatnonzero(sees) + 1, self.j + 1]
-        w = np.r_[np.hypot(*(self.xy[sees] - start).T), self.w]
-        g = coo_matrix((np.maximum(w, 1e-9), (rows, cols)), shape=(n + 1, n + 1)).tocsr()
+        # the graph in compressed rows: row 0 the start's links (columns ascending),
+        # then the corner links; the same matrix as built from (row, column) pairs
+        cols0 = np.flatnonzero(sees)
+        w = np.maximum(np.concatenate((np.hypot(*(self.xy[cols0] - start).T), self.w)),
+                       1e-9)
+        indptr = np.concatenate(([0], len(cols0) + self._ptr))
+        g = csr_matrix((w, np.concatenate((cols0 + 1, self._cols)), indptr),
+                       shape=(n + 1, n + 1))
         dist, pred = dijkstra(g, directed=False, indices=0, return_predecessors=True)
         total = dist + cost_t
         k = int(np.argmin(total))
@@ -122,7 +133,7 @@ class _Visibility:
         end = np.asarray(links[k].coords)[-1]
         coords.append(end)
         coords = np.array(coords)
-        keep = np.r_[True, np.hypot(*np.diff(coords, axis=0).T) > _TOL]
+        keep = np.concatenate(([True], np.hypot(*np.diff(coords, axis=0).T) > _TOL))
         coords = coords[keep]
         if len(coords) < 2:
             return shapely.LineString([start, end]) if np.hypot(*(end - start)) > 0 else None
@@ -293,6 +304,7 @@ def route_trunk(fields, main_ends, outlets, exclusions=None, *, mains=None, k_li
     # nodes: outlets, system ends, the fields' boundary corners, the mains' vertices
     ring_xy, ring_f, ring_edges = [], [], []
     base = n_o + n_f
+    n_ring = 0                                       # corners so far
     for f in range(n_f):
         g = fields[f]
         if g is None:
@@ -300,7 +312,8 @@ def route_trunk(fields, main_ends, outlets, exclusions=None, *, mains=None, k_li
         g = shapely.simplify(g, 0.5, preserve_topology=True)
         for r in shapely.get_rings(shapely.get_parts(g)):
             c = np.asarray(r.coords)[:-1]
-            k0 = base + sum(len(x) for x in ring_xy)
+            k0 = base + n_ring
+            n_ring += len(c)
             ring_xy.append(c)
             ring_f.append(np.full(len(c), f))
             ids = k0 + np.arange(len(c))
@@ -311,13 +324,15 @@ def route_trunk(fields, main_ends, outlets, exclusions=None, *, mains=None, k_li
     m_xy, m_f, m_edges, main_in = [], [], [], []     # main_in: corner -> main vertex
     tree = cKDTree(corners)
     k = min(k_links, len(corners))
+    n_mv = 0                                         # main vertices so far
     if mains is not None:
         for f in have:
             m = mains[f]
             if m is None:
                 continue
             c = np.asarray(m.coords)
-            k0 = mbase + sum(len(x) for x in m_xy)
+            k0 = mbase + n_mv
+            n_mv += len(c)
             m_xy.append(c)
             m_f.append(np.full(len(c), f))
             ids = k0 + np.arange(len(c))
@@ -367,15 +382,21 @@ def route_trunk(fields, main_ends, outlets, exclusions=None, *, mains=None, k_li
     if exclusions is not None and not shapely.is_empty(exclusions):
         ok &= ~shapely.intersects(seg, exclusions)
     # stretches through a field's interior cost more than along its edges; following
-    # an existing main costs half (the main is there and is only enlarged)
+    # an existing main costs half (the main is there and is only enlarged). A link and
+    # its reverse (the first 2 x len(both) links) share one computation.
     interiors = np.array([shapely.buffer(g, -2.0) if g is not None else shapely.Polygon()
                           for g in fields], dtype=object)
     itree = shapely.STRtree(interiors)
-    pairs = itree.query(seg, predicate="intersects")
-    inside = np.zeros(len(e))
+    nb = len(both)
+    once = np.r_[np.arange(nb), np.arange(2 * nb, len(e))]
+    pairs = itree.query(seg[once], predicate="intersects")
+    inside_once = np.zeros(len(once))
     if pairs.size:
-        np.add.at(inside, pairs[0], shapely.length(shapely.intersection(
-            seg[pairs[0]], interiors[pairs[1]])))
+        np.add.at(inside_once, pairs[0], shapely.length(shapely.intersection(
+            seg[once[pairs[0]]], interiors[pairs[1]])))
+    inside = np.zeros(len(e))
+    inside[once] = inside_once
+    inside[nb:2 * nb] = inside_once[:nb]
     is_main_edge = along_main & (node_f[e[:, 0]] == node_f[e[:, 1]]) & (e[:, 0] >= mbase)
     w = np.where(is_main_edge, 0.5 * length, length + (_INTERIOR_COST - 1.0) * inside)
     w = np.maximum(w, 1e-9)
