@@ -254,9 +254,13 @@ def edge_crossings(a, b, owner, grid):
     hi = np.maximum(sa, sb)
     L = grid.spacing[owner]
     s0 = grid.s0[owner]
-    k_lo = np.maximum(np.ceil((lo - s0) / L).astype(np.int64), 0)
-    k_hi = np.minimum(np.ceil((hi - s0) / L).astype(np.int64) - 1, grid.n_lines[owner] - 1)
-    count = np.maximum(k_hi - k_lo + 1, 0)
+    # (a field without scan lines has no s0: its edges cross nothing)
+    lines = (grid.n_lines[owner] > 0) & np.isfinite(s0) & np.isfinite(lo) & np.isfinite(hi)
+    lo_k = np.where(lines, np.ceil((lo - s0) / L), 0.0)
+    hi_k = np.where(lines, np.ceil((hi - s0) / L), 0.0)
+    k_lo = np.maximum(lo_k.astype(np.int64), 0)
+    k_hi = np.minimum(hi_k.astype(np.int64) - 1, grid.n_lines[owner] - 1)
+    count = np.where(lines, np.maximum(k_hi - k_lo + 1, 0), 0)
     total = int(count.sum())
     if total == 0:
         return np.empty(0, int), np.empty(0, int), np.empty(0), np.empty(0)
