@@ -239,11 +239,13 @@ def _extent_across(a, b, owner, v, n):
     return s_min, s_max
 
 
-def edge_crossings(a, b, owner, grid):
+def edge_crossings(a, b, owner, grid, *, return_edge=False):
     """Crossings of edges (a -> b, owned by field ``owner``) with the scan lines.
 
     Returns ``(field, k, s, t)``: field index, line index within the field, the
-    line's s and the crossing's t, one entry per crossing (half-open rule).
+    line's s and the crossing's t, one entry per crossing (half-open rule); with
+    ``return_edge`` also the index of the edge crossed and the fraction of the
+    way from its a to its b.
     """
     u, v = grid.u[owner], grid.v[owner]
     sa = np.einsum("ij,ij->i", a, v)
@@ -263,7 +265,8 @@ def edge_crossings(a, b, owner, grid):
     count = np.where(lines, np.maximum(k_hi - k_lo + 1, 0), 0)
     total = int(count.sum())
     if total == 0:
-        return np.empty(0, int), np.empty(0, int), np.empty(0), np.empty(0)
+        none = np.empty(0, int), np.empty(0, int), np.empty(0), np.empty(0)
+        return none + (np.empty(0, int), np.empty(0)) if return_edge else none
     e = np.repeat(np.arange(owner.size), count)
     k = k_lo[e] + (np.arange(total) - np.repeat(np.cumsum(count) - count, count))
     f = owner[e]
@@ -271,4 +274,6 @@ def edge_crossings(a, b, owner, grid):
     with np.errstate(invalid="ignore", divide="ignore"):
         frac = (s_line - sa[e]) / (sb[e] - sa[e])
     t = ta[e] + frac * (tb[e] - ta[e])
+    if return_edge:
+        return f, k, s_line, t, e, frac
     return f, k, s_line, t

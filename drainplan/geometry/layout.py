@@ -349,9 +349,12 @@ def _low_sides(bearing, side, fields, outlet, low_end):
     return low
 
 
-def _trim_mains(mains, junctions, jfield, outlet):
+def _trim_mains(mains, junctions, jfield, along, outlet):
     """Trim each field's main to the stretch between its first and last junction and
     orient it towards the outlet (downstream end last).
+
+    ``along`` tells roughly how far along its main each junction lies: it picks the
+    first and last junction of each main, whose positions GEOS then gives exactly.
 
     Returns the trimmed mains (None where a field has no junction or a single
     junction point) and the outlet points (the downstream end, or the junction
@@ -366,18 +369,26 @@ def _trim_mains(mains, junctions, jfield, outlet):
     # junctions grouped by field (they come sorted); positions along their field's main
     if np.any(jfield[1:] < jfield[:-1]):
         by_field = np.argsort(jfield, kind="stable")
-        jfield, junctions = jfield[by_field], junctions[by_field]
+        jfield, junctions, along = jfield[by_field], junctions[by_field], along[by_field]
     jm = has_main[jfield]
-    jf, jp = jfield[jm], junctions[jm]
+    jf, jp, along = jfield[jm], junctions[jm], along[jm]
     if jf.size == 0:
         return new, outlets
-    pos = shapely.line_locate_point(mains[jf].astype(object), jp)
     starts = np.flatnonzero(np.r_[True, jf[1:] != jf[:-1]])
+    ends = np.r_[starts[1:], jf.size] - 1
     fids = jf[starts]
-    lo = np.minimum.reduceat(pos, starts)
-    hi = np.maximum.reduceat(pos, starts)
     first_junction = jp[starts]
+    if not np.all(np.isfinite(along)):
+        along = shapely.line_locate_point(mains[jf].astype(object), jp)
+    size = ends - starts + 1
+    # the first and last junction of each main (the first of equals)
+    at = np.flatnonzero(along == np.repeat(np.minimum.reduceat(along, starts), size))
+    first_on_main = at[np.searchsorted(at, starts)]
+    at = np.flatnonzero(along == np.repeat(np.maximum.reduceat(along, starts), size))
+    last_on_main = at[np.searchsorted(at, starts)]
     line = mains[fids].astype(object)
+    lo = shapely.line_locate_point(line, jp[first_on_main])
+    hi = shapely.line_locate_point(line, jp[last_on_main])
     # the stretch between lo and hi: the two interpolated ends and the vertices
     # strictly between them (as shapely.ops.substring)
     trim = hi > lo
@@ -595,7 +606,7 @@ def layout_fields(fields, options, *, exclusions=None, exclusion_setbacks=None,
 
     conn = _connect(pieces, grid, sub_main, fields_filled[sub_owner], zones[sub_owner],
                     features[sub_owner], options.cross_setbacks)
-    lat, side, t_main, connected, connectors, con_sub, con_run = conn
+    lat, side, t_main, connected, connectors, con_sub, con_run, along_line = conn
     unconnected = lat.subset(~connected)
     lat = lat.subset(connected)
     side = side[connected]
@@ -610,11 +621,13 @@ def layout_fields(fields, options, *, exclusions=None, exclusion_setbacks=None,
     # junctions: one per lateral run (field, line, side)
     junctions = np.empty(0, dtype=object)
     jfield = jline = jside = np.empty(0, int)
+    j_along = np.empty(0)
     if lat.field.size:
         first = _first_of_runs(lat.field, lat.line, side)
         js = lat.field[first]
         jp = lat.s[first][:, None] * grid.v[js] + t_m[first][:, None] * grid.u[js]
         junctions = shapely.points(jp)
+        j_along = along_line[grid.line_base[js] + lat.line[first]]
         jfield = sub_owner[js]
         jline = lat.line[first] + line_offset[js]
         jside = side[first]
@@ -624,7 +637,7 @@ def layout_fields(fields, options, *, exclusions=None, exclusion_setbacks=None,
     con_line = con_run[0] + line_offset[con_sub] if con_sub.size else con_run[0]
 
     # trim each main to its junctions, orient it towards the outlet
-    mains, outlets = _trim_mains(mains, junctions, jfield, outlet)
+    mains, outlets = _trim_mains(mains, junctions, jfield, j_along, outlet)
     if np.any(connected == 0):
         notes.append(f"{int((~connected).sum())} lateral piece(s) cannot reach the main "
                      "without leaving the field or crossing an exclusion; they need a "
@@ -649,8 +662,9 @@ def _connect(pieces, grid, mains, fields, zones, features, cross_setbacks):
     """Join lateral pieces to the main along their lines.
 
     Returns the (possibly split) pieces, their side of the main (-1, +1), the
-    main's t on their line, a connected flag, the connector geometries and
-    their field index.
+    main's t on their line, a connected flag, the connector geometries, their
+    field index and their (line, side), and per scan line roughly how far along
+    the main it crosses it [m] (NaN where it does not).
     """
     # crossing of every scan line with its field's main
     mains = np.asarray(mains, dtype=object)
@@ -658,15 +672,27 @@ def _connect(pieces, grid, mains, fields, zones, features, cross_setbacks):
     c, ci = shapely.get_coordinates(mains[has_main], return_index=True)
     seg = np.flatnonzero(ci[1:] == ci[:-1])           # segments of the mains, in order
     t_main_line = np.full(int(grid.n_lines.sum()), np.nan)
+    along_main_line = np.full(int(grid.n_lines.sum()), np.nan)
     if seg.size:
-        mf, mk, _, mt = edge_crossings(c[seg], c[seg + 1], has_main[ci[seg]], grid)
+        mf, mk, _, mt, me, mfrac = edge_crossings(c[seg], c[seg + 1], has_main[ci[seg]],
+                                                  grid, return_edge=True)
         g = grid.line_base[mf] + mk
         # several crossings on one line: keep the one nearest the field's lowest t
-        order = np.lexsort((mt, g))
+        order = order_by_group(g, mt)
         g, mt = g[order], mt[order]
         # (a main that crosses no scan line, e.g. along a short cut corner, gives none)
         firsts = np.r_[True, g[1:] != g[:-1]] if g.size else np.zeros(0, bool)
         t_main_line[g[firsts]] = mt[firsts]
+        # and roughly how far along the main the crossing lies (to find each main's
+        # first and last junction)
+        d = c[seg + 1] - c[seg]
+        seg_len = np.hypot(d[:, 0], d[:, 1])
+        run = np.cumsum(seg_len)
+        main_start = np.r_[True, ci[seg][1:] != ci[seg][:-1]]
+        before = run - seg_len
+        before -= before[np.maximum.accumulate(np.where(main_start, np.arange(seg.size), 0))]
+        along = before[me] + mfrac * seg_len[me]
+        along_main_line[g[firsts]] = along[order][firsts]
     gl = grid.line_base[pieces.field] + pieces.line if pieces.field.size else np.empty(0, int)
     tm = t_main_line[gl] if pieces.field.size else np.empty(0)
 
@@ -689,7 +715,8 @@ def _connect(pieces, grid, mains, fields, zones, features, cross_setbacks):
     m = pieces.field.size
     if m == 0:
         return pieces, np.empty(0, int), np.empty(0), np.zeros(0, bool), \
-            np.empty(0, dtype=object), np.empty(0, int), (np.empty(0, int), np.empty(0, int))
+            np.empty(0, dtype=object), np.empty(0, int), (np.empty(0, int), np.empty(0, int)), \
+            along_main_line
     has_main = np.isfinite(tm)
     mid = 0.5 * (pieces.t0 + pieces.t1)
     side = np.where(mid < np.where(has_main, tm, np.inf), -1, 1)
@@ -742,5 +769,5 @@ def _connect(pieces, grid, mains, fields, zones, features, cross_setbacks):
         con_geoms, con_field = con_geoms[keep], con_field[keep]
         con_run = (con_line[keep], con_side[keep])
     tm_out = np.where(has_main, tm, np.nan)
-    return pieces, side, tm_out, connected, con_geoms, con_field, con_run
+    return pieces, side, tm_out, connected, con_geoms, con_field, con_run, along_main_line
 
