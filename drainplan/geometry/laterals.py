@@ -18,8 +18,8 @@ from dataclasses import dataclass
 import numpy as np
 import shapely
 
-__all__ = ["LateralSet", "LineGrid", "frame_axes", "polygon_edges", "scan_laterals",
-           "edge_crossings", "order_by_group"]
+__all__ = ["LateralSet", "LineGrid", "frame_axes", "polygon_parts", "polygon_edges",
+           "scan_laterals", "edge_crossings", "order_by_group"]
 
 
 @dataclass(frozen=True)
@@ -76,16 +76,25 @@ def frame_axes(bearing_deg):
     return u, v
 
 
+def polygon_parts(polygons):
+    """The polygons of an array of (multi)polygons, and the index of the geometry
+    each comes from (other parts left out); the polygons themselves where there is
+    no multipolygon."""
+    polygons = np.asarray(polygons, dtype=object).ravel()
+    if np.all(shapely.get_type_id(polygons) == 3):
+        return polygons, np.arange(polygons.size)
+    parts, part_owner = shapely.get_parts(polygons, return_index=True)
+    is_polygon = shapely.get_type_id(parts) == 3
+    return parts[is_polygon], part_owner[is_polygon]
+
+
 def polygon_edges(polygons):
     """All ring edges of an array of (multi)polygons.
 
     Returns ``(a, b, owner)``: edge start and end points, shape (m, 2), and the
     index of the polygon each edge belongs to.
     """
-    polygons = np.asarray(polygons, dtype=object)
-    parts, part_owner = shapely.get_parts(polygons, return_index=True)
-    is_polygon = shapely.get_type_id(parts) == 3
-    parts, part_owner = parts[is_polygon], part_owner[is_polygon]
+    parts, part_owner = polygon_parts(polygons)
     rings, ring_part = shapely.get_rings(parts, return_index=True)
     coords, ring_of_coord = shapely.get_coordinates(rings, return_index=True)
     same = ring_of_coord[:-1] == ring_of_coord[1:]

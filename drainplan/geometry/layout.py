@@ -21,7 +21,7 @@ import shapely
 from ..errors import InputError
 from .fields import drainable_regions, long_axis_bearing
 from .laterals import (LateralSet, edge_crossings, frame_axes, order_by_group, polygon_edges,
-                       scan_laterals)
+                       polygon_parts, scan_laterals)
 
 __all__ = ["LayoutOptions", "Layout", "layout_fields", "COMPASS"]
 
@@ -212,9 +212,7 @@ def _main_chains(polys, u, v, low_side):
     out = np.full(n, None, dtype=object)
     if n == 0:
         return out
-    parts, owner = shapely.get_parts(polys, return_index=True)
-    is_poly = shapely.get_type_id(parts) == 3
-    parts, owner = parts[is_poly], owner[is_poly]
+    parts, owner = polygon_parts(polys)
     if parts.size == 0:
         return out
     # the largest part of each polygon (the first of equal ones)
