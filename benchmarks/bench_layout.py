@@ -176,6 +176,19 @@ def main():
             f"({area_ha.min():.0f}-{area_ha.max():.0f} ha fields) "
             f"| {scan_len:,.1f} m vs {clip_len:,.1f} m |")
         print(rows[-1], flush=True)
+    again_line, again_spread = "", 1.0
+    if len(sizes) > 1:
+        # the smallest size once more, now that the process has laid out the largest
+        small = min(sizes)
+        t_again = min(cpu(lambda: full_layout(all_fields[:small]))[0]
+                      for _ in range(2 * args.repeat))
+        t_first = by_size[small]["layout"]
+        again_spread = max(t_again, t_first) / min(t_again, t_first)
+        again_line = (
+            f"The {small:,} fields laid out again at the end (after the {max(sizes):,}), "
+            f"as a check on the run-to-run spread: {1e3 * t_again / small:.3f} ms per field "
+            f"(load {load():.1f}), against {1e3 * by_size[small]['layout'] / small:.3f} ms "
+            "at the start.")
     ref_line = ""
     if not args.no_reference and 10_000 in by_size:
         ref = reference_layout()
@@ -227,6 +240,8 @@ def main():
         + " ms per field); twice the fields take "
         + ", ".join(f"{d:.2f}x" for d in doubling) + " the time (scaled to a doubling).",
     ]
+    if again_line:
+        lines += ["", again_line]
     if ref_line:
         lines += ["", ref_line]
     lines += [
@@ -236,7 +251,9 @@ def main():
            if 10_000 in by_size else "not measured in this run. ")
         + "Linear in the number of fields: no step compares fields with each other or scans "
         "all fields per field (each is one pass or one sort over all fields); the "
-        f"measured cost per field varies by a factor {growth:.2f} over the sizes.",
+        f"measured cost per field varies by a factor {growth:.2f} over the sizes "
+        f"({'larger' if growth > again_spread else 'no larger'} than the factor "
+        f"{again_spread:.2f} between the two runs of {min(sizes):,} fields).",
     ]
     text = "\n".join(lines)
     print(text)
