@@ -383,12 +383,15 @@ def route_trunk(fields, main_ends, outlets, exclusions=None, *, mains=None, k_li
         ok &= ~shapely.intersects(seg, exclusions)
     # stretches through a field's interior cost more than along its edges; following
     # an existing main costs half (the main is there and is only enlarged). A link and
-    # its reverse (the first 2 x len(both) links) share one computation.
+    # its reverse (the first 2 x len(both) links) share one computation; links along a
+    # main need none.
+    is_main_edge = along_main & (node_f[e[:, 0]] == node_f[e[:, 1]]) & (e[:, 0] >= mbase)
     interiors = np.array([shapely.buffer(g, -2.0) if g is not None else shapely.Polygon()
                           for g in fields], dtype=object)
     itree = shapely.STRtree(interiors)
     nb = len(both)
     once = np.r_[np.arange(nb), np.arange(2 * nb, len(e))]
+    once = once[~is_main_edge[once]]
     pairs = itree.query(seg[once], predicate="intersects")
     inside_once = np.zeros(len(once))
     if pairs.size:
@@ -396,8 +399,7 @@ def route_trunk(fields, main_ends, outlets, exclusions=None, *, mains=None, k_li
             seg[once[pairs[0]]], interiors[pairs[1]])))
     inside = np.zeros(len(e))
     inside[once] = inside_once
-    inside[nb:2 * nb] = inside_once[:nb]
-    is_main_edge = along_main & (node_f[e[:, 0]] == node_f[e[:, 1]]) & (e[:, 0] >= mbase)
+    inside[nb:2 * nb] = inside[:nb]
     w = np.where(is_main_edge, 0.5 * length, length + (_INTERIOR_COST - 1.0) * inside)
     w = np.maximum(w, 1e-9)
     e, w = e[ok], w[ok]
