@@ -704,8 +704,8 @@ def design_network(runs, carriers, options, *, surface=None, outlets=None):
     outlet_rows = list(merged.values())
 
     for row in reaches:
-        for k in [k for k in row if k.startswith("_")]:
-            row.pop(k)
+        row.pop("_start", None)
+        row.pop("_end", None)
         row["warnings"] = "; ".join(row["warnings"])
 
     from .takeoff import takeoff_rows
@@ -1139,16 +1139,24 @@ def _size_rows(rows, series, options, violations, *, uniform_inflow, taper=False
     ok = idx >= 0
     d_all = series.inner_diameter[np.maximum(idx, 0)]
     full_all = _capacity(d_all, grade, series, options, False) / options.capacity_factor
-    n_all = (np.atleast_1d(manning_n(series.material, d_all)) if options.method == "manning"
-             else None)
     wall = "smooth" if series.material in ("smooth", "clay") else "corrugated"
     outside = power_law_outside(d_all, wall) if options.method != "manning" else \
         np.zeros(len(rows), bool)
     big_full = None
-    for k, (r, i, c, s) in enumerate(zip(rows, idx, cap, grade)):
+    # per size: inside diameter [mm] and Manning's n as shown (rounded once per size)
+    inner_mm = [round(float(d) * 1000.0, 1) for d in series.inner_diameter]
+    n_size = ([round(float(v), 5) for v in np.atleast_1d(
+        manning_n(series.material, series.inner_diameter))]
+        if options.method == "manning" else None)
+    usable = round(100.0 * options.capacity_factor, 1)
+    cap_l = (np.asarray(cap, float) * 1000.0).tolist()
+    vel = (full_all / (np.pi * d_all * d_all / 4.0)).tolist()
+    idx_l, ok_l = np.asarray(idx).tolist(), ok.tolist()
+    for k, r in enumerate(rows):
+        i, s = idx_l[k], grade[k]
         r["material"] = series.material
-        r["usable_capacity_pct"] = round(100.0 * options.capacity_factor, 1)
-        if not ok[k]:
+        r["usable_capacity_pct"] = usable
+        if not ok_l[k]:
             biggest = series.nominal[-1]
             if big_full is None:
                 big_full = _capacity(np.full(len(rows), series.inner_diameter[-1]), grade,
@@ -1166,20 +1174,20 @@ def _size_rows(rows, series, options, violations, *, uniform_inflow, taper=False
                 "split the area to a second outlet"))
             violations[-1]["summary"] = f"flow beyond the largest pipe ({biggest})"
             continue
-        d = float(d_all[k])
+        c = cap_l[k]
         r["size"] = series.nominal[i]
-        r["inner_diameter_mm"] = round(d * 1000.0, 1)
-        r["capacity_l_s"] = float(c) * 1000.0
-        r["capacity_used_pct"] = 100.0 * r["flow_l_s"] / (float(c) * 1000.0) if c > 0 else None
-        r["velocity_m_s"] = float(full_all[k] / (np.pi * d * d / 4.0))
-        if n_all is not None:
-            r["manning_n"] = round(float(n_all[k]), 5)
+        r["inner_diameter_mm"] = inner_mm[i]
+        r["capacity_l_s"] = c
+        r["capacity_used_pct"] = 100.0 * r["flow_l_s"] / c if c > 0 else None
+        r["velocity_m_s"] = vel[k]
+        if n_size is not None:
+            r["manning_n"] = n_size[i]
         elif outside[k]:
             lo, hi = POWER_LAW_RANGE[wall]
             r["warnings"].append("power law outside its diameter range")
             violations.append(_violation(
                 "power law range", r["reach_id"], 0.0, r.get("_start"),
-                f"{r['size']} ({d * 1000:.0f} mm inside) lies outside the "
+                f"{r['size']} ({float(d_all[k]) * 1000:.0f} mm inside) lies outside the "
                 f"{lo * 1000:.0f}-{hi * 1000:.0f} mm the drain-pipe power law was "
                 "fitted to; its capacity may be overstated",
                 "check these reaches with --capacity-method manning"))
