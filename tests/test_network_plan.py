@@ -102,3 +102,97 @@ def test_runs_follow_the_rule(seed):
         assert r.perforated_length == pytest.approx(perf, abs=1e-9)
         assert r.connector_length == pytest.approx(conn, abs=1e-9)
         assert shapely.equals_exact(r.line, line, 1e-9)
+
+
+def _path_undirected(vis, start, targets):
+    """The shortest path as scipy's undirected Dijkstra finds it on the graph built from
+    (row, column) pairs: the straightforward construction the routing must match, ties
+    included."""
+    from scipy.sparse import coo_matrix
+    from scipy.sparse.csgraph import dijkstra
+
+    start = np.asarray(start, float)
+    n = len(vis.xy)
+    nodes = np.vstack([start[None, :], vis.xy])
+    to_node = shapely.linestrings(np.stack([np.broadcast_to(start, vis.xy.shape), vis.xy],
+                                           axis=1))
+    sees = shapely.covered_by(to_node, vis.cover)
+    links = shapely.shortest_line(shapely.points(nodes), targets)
+    cost_t = np.where(shapely.covered_by(links, vis.cover), shapely.length(links), np.inf)
+    rows = np.r_[np.zeros(int(sees.sum()), int), vis.i + 1]
+    cols = np.r_[np.flatnonzero(sees) + 1, vis.j + 1]
+    w = np.r_[np.hypot(*(vis.xy[sees] - start).T), vis.w]
+    g = coo_matrix((np.maximum(w, 1e-9), (rows, cols)), shape=(n + 1, n + 1)).tocsr()
+    dist, pred = dijkstra(g, directed=False, indices=0, return_predecessors=True)
+    total = dist + cost_t
+    k = int(np.argmin(total))
+    if not np.isfinite(total[k]):
+        return None
+    chain = [k]
+    while chain[-1] != 0:
+        chain.append(int(pred[chain[-1]]))
+    coords = np.array([nodes[c] for c in chain[::-1]] + [np.asarray(links[k].coords)[-1]])
+    keep = np.r_[True, np.hypot(*np.diff(coords, axis=0).T) > 1e-3]
+    return coords[keep]
+
+
+@pytest.mark.parametrize("seed", [6, 7])
+def test_visibility_paths_match_the_undirected_search(seed):
+    # Grid-aligned fields with square holes: many corners in line and paths of equal
+    # length, where only the search's scanning order decides.
+    from drainplan.network.routing import _Visibility
+
+    rng = np.random.default_rng(seed)
+    checked = 0
+    for _ in range(6):
+        field = shapely.box(0, 0, 100, 100)
+        for _ in range(int(rng.integers(1, 5))):
+            x, y = rng.integers(10, 80, 2)
+            field = field.difference(shapely.box(x, y, x + 10, y + 10))
+        vis = _Visibility(field)
+        target = shapely.LineString([(0, 0), (0, 100)])
+        for _ in range(10):
+            p = tuple(float(v) for v in rng.integers(1, 99, 2))
+            if not shapely.covers(field, shapely.Point(p)):
+                continue
+            got = vis.path(p, target)
+            ref = _path_undirected(vis, p, target)
+            if ref is None:
+                assert got is None
+                continue
+            if len(ref) < 2:
+                continue
+            assert np.array_equal(shapely.get_coordinates(got), ref)
+            checked += 1
+    assert checked > 20
+
+
+@pytest.mark.parametrize("seed", [8, 9])
+def test_search_graph_scans_like_the_undirected_search(seed):
+    # Whole-number weights: many paths of equal length. The directed search on the
+    # routing's graph must give the distances and predecessors of scipy's undirected
+    # search on the graph built from (row, column) pairs.
+    from scipy.sparse import coo_matrix
+    from scipy.sparse.csgraph import dijkstra
+
+    from drainplan.network.routing import _Visibility
+
+    rng = np.random.default_rng(seed)
+    for _ in range(300):
+        n = int(rng.integers(2, 20))
+        vis = _Visibility.__new__(_Visibility)
+        vis.xy = np.zeros((n, 2))
+        i, j = np.triu_indices(n, 1)
+        keep = rng.random(len(i)) < rng.uniform(0.2, 1.0)
+        vis.i, vis.j = i[keep], j[keep]
+        vis.w = rng.integers(1, 4, keep.sum()).astype(float)
+        vis._index()
+        cols0 = np.flatnonzero(rng.random(n) < 0.4)
+        w0 = rng.integers(1, 4, len(cols0)).astype(float)
+        rows = np.r_[np.zeros(len(cols0), int), vis.i + 1]
+        cols = np.r_[cols0 + 1, vis.j + 1]
+        ref = coo_matrix((np.r_[w0, vis.w], (rows, cols)), shape=(n + 1, n + 1)).tocsr()
+        d0, p0 = dijkstra(ref, directed=False, indices=0, return_predecessors=True)
+        d1, p1 = dijkstra(vis._graph(cols0, w0), directed=True, indices=0,
+                          return_predecessors=True)
+        assert np.array_equal(d0, d1) and np.array_equal(p0, p1)
