@@ -535,31 +535,43 @@ def design_network(runs, carriers, options, *, surface=None, outlets=None):
     if surface is not None:
         need = (options.ditch_water_level + options.outfall_margin
                 if options.ditch_water_level is not None else None)
-        for k in range(nc - 1, -1, -1):              # outlet first
-            a, b = car_start[k], car_start[k] + car_n[k]
-            ch, xy = car_ch[a:b], car_xy[a:b]
-            if c_to[k] < 0:
-                floor_end = need if need is not None else -np.inf
+        lv = np.array([depth[c] for c in order], np.int64)
+        blocks = np.r_[0, np.flatnonzero(np.diff(lv)) + 1, nc] if nc else np.zeros(1, int)
+        for la, lb in list(zip(blocks[:-1], blocks[1:]))[::-1]:     # outlet first
+            ks = np.arange(la, lb)
+            floor_end = np.empty(lb - la)
+            root = c_to[ks] < 0
+            for k in ks[root][::-1]:
+                floor_end[k - la] = need if need is not None else -np.inf
                 if need is not None and end_z[k] < need:
+                    e = car_last[k]
                     violations.append(_violation(
-                        "outlet", order[k], ch[-1], xy[-1],
+                        "outlet", order[k], car_ch[e], car_xy[e],
                         f"outlet invert {end_z[k]:.2f} m is below the receiving water "
                         f"level {options.ditch_water_level:.2f} m + {options.outfall_margin:.2f}"
                         f" m; raised to {need:.2f} m (the pipes above lose depth)",
                         "lower the ditch, use a pumped outlet, or a shallower design depth",
                         ))
-            else:
-                p = c_to[k]
-                pa, pb = car_start[p], car_start[p] + car_n[p]
-                floor_end = float(np.interp(car_jch[k], car_ch[pa:pb], car_z[pa:pb]))
-            car_z[a:b] = np.maximum(car_z[a:b], floor_end + gmin * (ch[-1] - ch))
-            end_z[k] = float(car_z[b - 1])
+            if np.any(~root):
+                # where each joins its receiving carrier (the level below, done already)
+                par = c_to[ks[~root]]
+                pa, pb = int(par.min()), int(par.max()) + 1
+                s0, s1 = car_start[pa], car_start[pb - 1] + car_n[pb - 1]
+                zl = car_z[s0:s1]
+                floor_end[~root] = _interp_along(
+                    par - pa, car_jch[ks[~root]], np.stack([zl, zl], axis=1),
+                    car_start[pa:pb] - s0, car_n[pa:pb], car_ch[s0:s1])[:, 0]
+            s0, s1 = car_start[la], car_start[lb - 1] + car_n[lb - 1]
+            own = np.repeat(np.arange(lb - la), car_n[la:lb])
+            ch = car_ch[s0:s1]
+            car_z[s0:s1] = np.maximum(car_z[s0:s1], floor_end[own] + gmin *
+                                      (car_ch[car_last[la:lb]][own] - ch))
+            end_z[la:lb] = car_z[car_last[la:lb]]
         floor = np.full(nr, need if need is not None else -np.inf)
-        for k in range(nc):
-            ri = runs_into[k]
-            if ri.size:
-                a, b = car_start[k], car_start[k] + car_n[k]
-                floor[ri] = np.interp(run_jch[ri], car_ch[a:b], car_z[a:b])
+        if joined.size:
+            floor[joined] = _interp_along(r_to[joined], run_jch[joined],
+                                          np.stack([car_z, car_z], axis=1), car_start,
+                                          car_n, car_ch)[:, 0]
         if nr:
             owner = np.repeat(np.arange(nr), lat_n)
             lat_z = np.maximum(lat_z, floor[owner] + gmin * (lat_ch[lat_last][owner] - lat_ch))
