@@ -13,6 +13,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from . import _background as background
 from .errors import ConvergenceWarning, DrainplanError, InputError
 from .project import Project
 from .spacing import (METHODS, drain_spacing, glover_dumm_head, glover_dumm_profile,
@@ -205,7 +206,7 @@ def project_pipe_series(project):
         "inch" if project.report.get("units", "metric") == "us" else "metric")
 
 
-def design(project, *, progress=None):
+def design(project, *, progress=None, idle=None):
     """Run the whole design for a loaded project.
 
     Parameters
@@ -213,6 +214,10 @@ def design(project, *, progress=None):
     project : Project
     progress : callable, optional
         Called with a short text as each step starts.
+    idle : callable, optional
+        Called (once, without arguments) when the layout and the pipes are done but
+        the season simulation, running beside them in a second process, is not: time
+        for the caller to prepare what comes next (load the report's libraries).
 
     Returns
     -------
@@ -304,59 +309,74 @@ def design(project, *, progress=None):
         comparison.append(entry)
     sensitivity = _sensitivity(p, depth, steady_method if has_steady else None, has_falling)
 
-    # layout
-    say("layout")
-    from .layout_plan import plan_layout
-
-    lp = plan_layout(layout_inputs(
-        p, spacing, survey_path=p.pipes.get("survey"), survey_crs=p.pipes.get("survey_crs"),
-        survey_z_unit=p.pipes.get("survey_z_unit", "m"), dem_path=p.pipes.get("dem")))
-
-    # pipes
-    say("pipes")
-    from .network.design import PipeOptions
-    from .network.plan import PipesInputs, pipes_from_layers
-
-    pp = p.pipes
-    coef = pp.get("coefficient", c.get("recharge"))
-    if coef is None:
-        raise InputError(f"{p.path.name}: pipes.coefficient is required when no steady "
-                         "recharge is given", param="project")
-    popts = PipeOptions(
-        coefficient=coef, material=pp.get("material", "corrugated"),
-        series=project_pipe_series(p), method=pp.get("capacity_method", "manning"),
-        capacity_factor=pp.get("capacity_factor", 0.75), drain_depth=depth,
-        main_depth=pp.get("main_depth"), min_grade=pp.get("min_grade", 0.001),
-        max_grade=pp.get("max_grade", 0.05), min_cover=pp.get("min_cover", 0.6),
-        max_depth=pp.get("max_depth", 2.0), min_velocity=pp.get("min_velocity", 0.15),
-        max_velocity=pp.get("max_velocity", 1.5),
-        ditch_water_level=pp.get("ditch_water_level"),
-        outfall_margin=pp.get("outfall_margin", 0.10), sizes_path=pp.get("sizes"),
-        envelope=None if pp.get("envelope", "none") == "none" else pp.get("envelope"))
-    pipes_plan = pipes_from_layers(
-        lp.layers, lp.work_crs, lp.out_crs,
-        PipesInputs(layout_path=None, options=popts, survey_path=pp.get("survey"),
-                    survey_crs=pp.get("survey_crs"), survey_z_unit=pp.get("survey_z_unit", "m"),
-                    dem_path=pp.get("dem")))
-
-    say("water-table curves")
-    figures = _figure_data(p, depth, spacing, main_result, chosen_method)
-    figures["units"] = p.report.get("units", "metric")
-    falling = _falling_discharge(p, figures, coef) if has_falling else None
-    summary = _summary(p, table, depth, spacing, raw_spacing, governing, chosen_method,
-                       comparison, sensitivity, lp, pipes_plan, main_result, coef)
-    summary["design"]["falling_discharge"] = falling
-    summary["design"]["warnings"], extra_notes = _design_warnings(p, comparison, chosen_method,
-                                                                  falling)
-    summary["design"]["notes"] += extra_notes
-    summary["design"]["warnings"] = text_warnings + summary["design"]["warnings"]
-    _add_uncertainty(summary, figures, p, unc, spacing, deterministic_spacing)
+    # the season simulation needs only the spacing and the depth: it runs beside the
+    # layout and the pipes (in a second process where there is a core to spare)
+    coef = p.pipes.get("coefficient", c.get("recharge"))
+    sim_task = None
     if "weather" in p.simulation:
-        say("season simulation")
-        summary["simulation"], figures["simulation"] = _season_simulation(
-            p, depth, spacing, raw_spacing, coef, lp)
-        summary["references"] += SIMULATION_REFERENCES
-    return DesignResult(p, summary, lp, pipes_plan, figures)
+        sim_task = background.start(_season_simulation, p, depth, spacing, raw_spacing, coef,
+                                    None)
+    try:
+        # layout
+        say("layout")
+        from .layout_plan import plan_layout
+
+        lp = plan_layout(layout_inputs(
+            p, spacing, survey_path=p.pipes.get("survey"), survey_crs=p.pipes.get("survey_crs"),
+            survey_z_unit=p.pipes.get("survey_z_unit", "m"), dem_path=p.pipes.get("dem")))
+
+        # pipes
+        say("pipes")
+        from .network.design import PipeOptions
+        from .network.plan import PipesInputs, pipes_from_layers
+
+        pp = p.pipes
+        if coef is None:
+            raise InputError(f"{p.path.name}: pipes.coefficient is required when no steady "
+                             "recharge is given", param="project")
+        popts = PipeOptions(
+            coefficient=coef, material=pp.get("material", "corrugated"),
+            series=project_pipe_series(p), method=pp.get("capacity_method", "manning"),
+            capacity_factor=pp.get("capacity_factor", 0.75), drain_depth=depth,
+            main_depth=pp.get("main_depth"), min_grade=pp.get("min_grade", 0.001),
+            max_grade=pp.get("max_grade", 0.05), min_cover=pp.get("min_cover", 0.6),
+            max_depth=pp.get("max_depth", 2.0), min_velocity=pp.get("min_velocity", 0.15),
+            max_velocity=pp.get("max_velocity", 1.5),
+            ditch_water_level=pp.get("ditch_water_level"),
+            outfall_margin=pp.get("outfall_margin", 0.10), sizes_path=pp.get("sizes"),
+            envelope=None if pp.get("envelope", "none") == "none" else pp.get("envelope"))
+        pipes_plan = pipes_from_layers(
+            lp.layers, lp.work_crs, lp.out_crs,
+            PipesInputs(layout_path=None, options=popts, survey_path=pp.get("survey"),
+                        survey_crs=pp.get("survey_crs"),
+                        survey_z_unit=pp.get("survey_z_unit", "m"), dem_path=pp.get("dem")))
+
+        say("water-table curves")
+        figures = _figure_data(p, depth, spacing, main_result, chosen_method)
+        figures["units"] = p.report.get("units", "metric")
+        falling = _falling_discharge(p, figures, coef) if has_falling else None
+        summary = _summary(p, table, depth, spacing, raw_spacing, governing, chosen_method,
+                           comparison, sensitivity, lp, pipes_plan, main_result, coef)
+        summary["design"]["falling_discharge"] = falling
+        summary["design"]["warnings"], extra_notes = _design_warnings(p, comparison, chosen_method,
+                                                                      falling)
+        summary["design"]["notes"] += extra_notes
+        summary["design"]["warnings"] = text_warnings + summary["design"]["warnings"]
+        _add_uncertainty(summary, figures, p, unc, spacing, deterministic_spacing)
+        if sim_task is not None:
+            say("season simulation")
+            if idle is not None and sim_task.running():
+                idle()
+            try:
+                sim = sim_task.result()
+            except _NeedsFieldLatitude:       # PET from temperatures at the fields' latitude
+                sim = _season_simulation(p, depth, spacing, raw_spacing, coef, lp)
+            summary["simulation"], figures["simulation"] = sim
+            summary["references"] += SIMULATION_REFERENCES
+        return DesignResult(p, summary, lp, pipes_plan, figures)
+    finally:
+        if sim_task is not None:
+            sim_task.cancel()       # stopped on an error (nothing to do once collected)
 
 
 #: Citations added to the sheet when the project has a [simulation] section.
@@ -373,8 +393,17 @@ SIMULATION_REFERENCES = [
 ]
 
 
+class _NeedsFieldLatitude(Exception):
+    """The weather record gives temperatures and the project no latitude: the season
+    simulation waits for the layout (the fields' latitude)."""
+
+
 def _season_simulation(p, depth, spacing, raw_spacing, coef, lp):
-    """[simulation]: the water table over the project's weather record at the design depth."""
+    """[simulation]: the water table over the project's weather record at the design depth.
+
+    ``lp`` (the layout) gives the fields' latitude for PET from temperatures when the
+    project gives none; with ``lp=None`` such a record raises
+    :class:`_NeedsFieldLatitude`."""
     from .simulation_plan import SimulationSite, design_simulation
     from .weather import parse_season, read_weather
 
@@ -398,7 +427,7 @@ def _season_simulation(p, depth, spacing, raw_spacing, coef, lp):
                           root_zone_depth=sim.get("root_zone_depth", 0.5),
                           equivalent_depth_method=p.drains.get("equivalent_depth", "series"))
     latitude = sim.get("latitude")
-    if latitude is None:                      # the fields' latitude, for Hargreaves-Samani
+    if latitude is None and lp is not None:   # the fields' latitude, for Hargreaves-Samani
         try:
             c = lp.layers["field"].to_crs("EPSG:4326").geometry.union_all().centroid
             latitude = float(c.y)
@@ -407,6 +436,8 @@ def _season_simulation(p, depth, spacing, raw_spacing, coef, lp):
     try:
         weather = read_weather(sim["weather"], latitude=latitude)
     except InputError as exc:
+        if lp is None and latitude is None and exc.param == "latitude":
+            raise _NeedsFieldLatitude() from None
         raise InputError(f"{p.path.name}: simulation.weather: {exc}", param="project") from None
     season = parse_season(sim.get("season"))
     with warnings.catch_warnings():

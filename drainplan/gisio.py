@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import contextlib
 import csv
+import math
 import os
 import signal
 import stat
@@ -286,11 +287,30 @@ def to_metric(gdf, file_crs, work_crs=None, notes=None):
 
 
 def _utm(gdf):
+    """The WGS 84 UTM zone at the centre of ``gdf``'s extent (lon/lat of its bounds)."""
+    from pyproj import CRS
+
     try:
-        return gdf.estimate_utm_crs()
+        x0, y0, x1, y1 = gdf.total_bounds
+        if not gdf.crs.is_geographic:
+            from pyproj import Transformer
+
+            x0, y0, x1, y1 = Transformer.from_crs(gdf.crs, "EPSG:4326", always_xy=True) \
+                .transform_bounds(x0, y0, x1, y1)
+        if x0 > x1:                                 # across the antimeridian
+            x1 += 360.0
+        lon = ((x0 + x1) / 2.0 + 180.0) % 360.0 - 180.0
+        lat = (y0 + y1) / 2.0
+        ok = math.isfinite(lon) and -80.0 <= lat <= 84.0     # UTM's latitude band
     except Exception:
+        ok = False
+    if not ok:
         raise InputError("no UTM zone fits these coordinates; give a metric --work-crs",
-                         param="work_crs") from None
+                         param="work_crs")
+    # zones of 6 degrees eastward from 180 W (the UTM definition; as EPSG's WGS 84 / UTM
+    # CRSs 326zz north and 327zz south of the equator)
+    zone = min(int((lon + 180.0) // 6.0), 59) + 1
+    return CRS.from_epsg((32600 if lat >= 0 else 32700) + zone)
 
 
 def scale_error(crs, gdf):
@@ -636,12 +656,16 @@ def layers_writer(layers):
     import pyogrio
 
     def writer(tmp):
-        pyogrio.set_gdal_config_options({"OGR_CURRENT_DATE": FIXED_TIMESTAMP})
+        # SQLite need not wait for the disk after each layer: the file is a temporary
+        # one, renamed into place only when complete
+        pyogrio.set_gdal_config_options({"OGR_CURRENT_DATE": FIXED_TIMESTAMP,
+                                         "OGR_SQLITE_SYNCHRONOUS": "OFF"})
         try:
             for name, gdf in layers.items():
                 _write_layer(gdf, tmp, name, "GPKG", append=os.path.exists(tmp))
         finally:
-            pyogrio.set_gdal_config_options({"OGR_CURRENT_DATE": None})
+            pyogrio.set_gdal_config_options({"OGR_CURRENT_DATE": None,
+                                             "OGR_SQLITE_SYNCHRONOUS": None})
 
     return writer
 

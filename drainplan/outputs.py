@@ -24,10 +24,11 @@ import shutil
 import tempfile
 from pathlib import Path
 
+from . import _background as background
 from .errors import InputError
 
 __all__ = ["write_design_outputs", "write_output_folder", "check_output_folder",
-           "render_figures", "OUTPUT_FILES", "MANIFEST"]
+           "render_figures", "load_report_libraries", "OUTPUT_FILES", "MANIFEST"]
 
 OUTPUT_FILES = ("design_sheet.pdf", "design.gpkg", "pipe_schedule.csv", "summary.json")
 
@@ -36,12 +37,26 @@ MANIFEST = ".drainplan-outputs.json"
 _STAGING = ".drainplan-staging"
 
 
-def render_figures(result):
-    """PNG bytes of the sheet's figures: plan, section, falling (if any), profiles (if any),
-    in the project's report units (see :func:`drainplan.plots.design_figures`)."""
-    from .plots import design_figures
+#: Figures made in a second process while this one makes the others (where the
+#: machine allows; see drainplan._background): about half the drawing time.
+_FIGURES_BESIDE = ("simulation", "profiles")
 
-    return design_figures(result)
+
+def render_figures(result, names=None):
+    """PNG bytes of the sheet's figures (all, or those in ``names``): plan, section,
+    falling, probability, simulation and profiles where the design has them, in the
+    project's report units (see :func:`drainplan.plots.design_figures`)."""
+    from .plots import DESIGN_FIGURES, design_figures
+
+    return design_figures(result, names=DESIGN_FIGURES if names is None else names)
+
+
+def load_report_libraries():
+    """Import matplotlib's figure and image backend and reportlab (half a second on a
+    fresh process), e.g. while waiting for a part of the design running elsewhere."""
+    import matplotlib.backends.backend_agg  # noqa: F401
+    import matplotlib.figure  # noqa: F401
+    import reportlab.platypus  # noqa: F401
 
 
 def _clean(obj):
@@ -181,15 +196,7 @@ def write_design_outputs(result, outdir, *, overwrite=False, progress=None):
     project = result.project
     inputs = project.input_files() if hasattr(project, "input_files") else ()
 
-    def write_files(tmp):
-        say("figures")
-        figs = render_figures(result)
-        say("design sheet")
-        rep = project.report
-        build_sheet(result.summary, figs, str(tmp / "design_sheet.pdf"),
-                    units=rep.get("units", "metric"), paper=rep.get("paper", "A4"),
-                    logo=rep.get("logo"))
-        say("GIS layers and schedule")
+    def write_data(tmp):
         layers = dict(result.layout_plan.layers)
         layers.update(result.pipes_plan.layers)
         layers_writer(layers)(str(tmp / "design.gpkg"))
@@ -198,7 +205,30 @@ def write_design_outputs(result, outdir, *, overwrite=False, progress=None):
         (tmp / "summary.json").write_text(
             json.dumps(_clean(result.summary), indent=2, sort_keys=True) + "\n",
             encoding="utf-8")
-        (tmp / "plan.png").write_bytes(figs["plan"])
+
+    def write_files(tmp):
+        # the GIS layers, schedule and summary need nothing from the figures or the
+        # sheet, and some figures nothing from the others: made beside them (in second
+        # processes where a core is free)
+        with background.start(write_data, tmp) as data:
+            say("figures")
+            import matplotlib.figure  # noqa: F401 - loaded once, before the process splits
+
+            from .plots import DESIGN_FIGURES
+
+            with background.start(render_figures, result, _FIGURES_BESIDE) as beside:
+                figs = render_figures(result, [n for n in DESIGN_FIGURES
+                                               if n not in _FIGURES_BESIDE])
+                figs.update(beside.result())
+            figs = {n: figs[n] for n in DESIGN_FIGURES if n in figs}
+            say("design sheet")
+            rep = project.report
+            build_sheet(result.summary, figs, str(tmp / "design_sheet.pdf"),
+                        units=rep.get("units", "metric"), paper=rep.get("paper", "A4"),
+                        logo=rep.get("logo"))
+            (tmp / "plan.png").write_bytes(figs["plan"])
+            say("GIS layers and schedule")
+            data.result()
 
     return write_output_folder(outdir, write_files, names=(*OUTPUT_FILES, "plan.png"),
                                overwrite=overwrite, inputs=inputs)

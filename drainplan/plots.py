@@ -361,45 +361,55 @@ def _png(fig):
     return buf.getvalue()
 
 
-def design_figures(result, units=None):
-    """PNG bytes of the sheet's figures: plan, section, falling (if any), profiles (if any).
+#: The sheet's figures, in the order they are made.
+DESIGN_FIGURES = ("plan", "section", "falling", "probability", "simulation", "profiles")
+
+
+def design_figures(result, units=None, names=DESIGN_FIGURES):
+    """PNG bytes of the sheet's figures: plan, section, falling (if any), probability
+    (if any), simulation (if any), profiles (if any).
 
     Figures are made with :class:`matplotlib.figure.Figure` (no pyplot state), in the
-    project's report units unless ``units`` is given.
+    project's report units unless ``units`` is given; ``names`` picks some of
+    :data:`DESIGN_FIGURES` (the others are not made).
     """
     from matplotlib.figure import Figure
 
     units = units or result.project.report.get("units", "metric")
     lp, fd = result.layout_plan, result.figures
     out = {}
-    metric = {k: v.to_crs(lp.work_crs) for k, v in lp.layers.items()}
     # fixed margins instead of tight bounding boxes: each figure is drawn once
-    fig = Figure(figsize=(8, 6.2))
-    fig.subplots_adjust(left=0.01, right=0.74, bottom=0.01, top=0.99)
-    plan_map(metric, ax=fig.add_subplot(), units=units)
-    out["plan"] = _png(fig)
-    fig = Figure(figsize=(8, 3.6))
-    fig.subplots_adjust(left=0.09, right=0.98, bottom=0.27, top=0.91)
-    cross_section(fd, ax=fig.add_subplot(), units=units)
-    out["section"] = _png(fig)
-    if "falling_t" in fd:
+    if "plan" in names:
+        metric = {k: v.to_crs(lp.work_crs) for k, v in lp.layers.items()}
+        fig = Figure(figsize=(8, 6.2))
+        fig.subplots_adjust(left=0.01, right=0.74, bottom=0.01, top=0.99)
+        plan_map(metric, ax=fig.add_subplot(), units=units)
+        out["plan"] = _png(fig)
+    if "section" in names:
+        fig = Figure(figsize=(8, 3.6))
+        fig.subplots_adjust(left=0.09, right=0.98, bottom=0.27, top=0.91)
+        cross_section(fd, ax=fig.add_subplot(), units=units)
+        out["section"] = _png(fig)
+    if "falling" in names and "falling_t" in fd:
         fig = Figure(figsize=(8, 2.8))
         fig.subplots_adjust(left=0.09, right=0.98, bottom=0.17, top=0.9, wspace=0.12)
         falling_water_table(fd, axes=fig.subplots(1, 2), units=units)
         out["falling"] = _png(fig)
-    if "probability" in fd:          # spacing under uncertainty
+    if "probability" in names and "probability" in fd:          # spacing under uncertainty
         fig = Figure(figsize=(8, 2.8))
         fig.subplots_adjust(left=0.09, right=0.98, bottom=0.17, top=0.9)
         probability_curve(fd["probability"], ax=fig.add_subplot(), units=units)
         out["probability"] = _png(fig)
-    if "simulation" in fd:
+    if "simulation" in names and "simulation" in fd:
         fig = Figure(figsize=(8, 6.4))
         season_simulation_panels(fd["simulation"], fig=fig, units=units)
         out["simulation"] = _png(fig)
-    fig = Figure(figsize=(8, 2.8))
-    fig.subplots_adjust(left=0.09, right=0.98, bottom=0.17, top=0.9, wspace=0.28)
-    if key_profiles(result.pipes_plan.design, axes=fig.subplots(1, 2), units=units) is not None:
-        out["profiles"] = _png(fig)
+    if "profiles" in names:
+        fig = Figure(figsize=(8, 2.8))
+        fig.subplots_adjust(left=0.09, right=0.98, bottom=0.17, top=0.9, wspace=0.28)
+        if key_profiles(result.pipes_plan.design, axes=fig.subplots(1, 2),
+                        units=units) is not None:
+            out["profiles"] = _png(fig)
     return out
 
 

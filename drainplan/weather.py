@@ -174,60 +174,46 @@ def _columns(header, name):
     return cols, rain[0], (pet[0] if pet else None), (temps[0] if temps else None)
 
 
-def parse_weather(text, *, name="weather", latitude=None):
-    """Read a daily weather CSV from text.
+def _parse_rows_fast(data, cols, idx, rain_col, pet_col, temp_cols):
+    """The data rows read as whole columns: (dates, rain, second, third) as in
+    :func:`_parse_rows`, or None when any row needs a closer look (the line-by-line
+    reader then names the first problem)."""
+    rows = list(csv.reader(line for _, line in data))
+    if any(len(f) != len(cols) for f in rows):
+        return None
+    n = len(rows)
+    try:
+        ds = [f[idx["date"]].strip() for f in rows]
+        if any(len(d) != 10 for d in ds):
+            return None
+        dates = np.array(ds, dtype="datetime64[D]")
 
-    Parameters
-    ----------
-    text : str
-        The file's content.
-    name : str
-        Shown in error messages.
-    latitude : float, optional
-        Latitude [degrees] for Hargreaves-Samani (required when the file gives
-        temperatures instead of PET).
+        def column(col):
+            return np.fromiter((float(f[idx[col]]) for f in rows), float, count=n)
 
-    Returns
-    -------
-    Weather
+        rain = column(rain_col)
+        if pet_col is not None:
+            second, third = column(pet_col), np.empty(n)
+            values = (rain, second)
+        else:
+            second, third = column(temp_cols[0]), column(temp_cols[1])
+            values = (rain,)
+            if not (np.all(np.isfinite(second)) and np.all(np.isfinite(third))
+                    and np.all(third >= second)):
+                return None
+    except ValueError:                  # an empty or unreadable value, a bad date
+        return None
+    if not all(np.all(np.isfinite(v)) and np.all(v >= 0) for v in values):
+        return None
+    if n > 1 and not np.all(np.diff(dates).astype(int) == 1):
+        return None
+    return dates, rain, second, third
 
-    Raises
-    ------
-    drainplan.errors.InputError
-        One line naming the file, the line number and the problem: a missing
-        column, an unreadable or negative value, a repeated date, a gap.
 
-    Examples
-    --------
-    >>> w = parse_weather("date,rain_mm,pet_mm\\n2001-01-01,4.0,0.5\\n2001-01-02,0,0.6\\n")
-    >>> w.rain.tolist(), str(w.dates[-1])
-    ([0.004, 0.0], '2001-01-02')
-    >>> try:
-    ...     parse_weather("date,rain_mm,pet_mm\\n2001-01-01,4,0\\n2001-01-03,1,0\\n")
-    ... except ValueError as exc:
-    ...     print(str(exc)[:61])
-    weather line 3: date 2001-01-03 leaves a gap after 2001-01-01
-    """
-    lines = text.splitlines()
-    rows = [(i, ln) for i, ln in enumerate(lines, start=1)
-            if ln.strip() and not ln.lstrip().startswith("#")]
-    if not rows:
-        raise InputError(f"{name}: the file is empty", param="weather")
-    header_line, header = rows[0][0], next(csv.reader([rows[0][1]]))
-    cols, rain_col, pet_col, temp_cols = _columns(header, name)
-    idx = {c: cols.index(c) for c in cols}
-    if temp_cols is not None:
-        if latitude is None:
-            raise InputError(f"{name}: the file gives temperatures, not PET; the latitude is "
-                             "needed for Hargreaves-Samani (--latitude)", param="latitude")
-        lat = float(latitude)
-        if not (np.isfinite(lat) and -90.0 <= lat <= 90.0):
-            raise InputError(f"latitude {latitude} must lie between -90 and 90 degrees",
-                             param="latitude")
-    data = rows[1:]
-    if not data:
-        raise InputError(f"{name}: no data rows after the header (line {header_line})",
-                         param="weather")
+def _parse_rows(data, cols, idx, rain_col, pet_col, temp_cols, name):
+    """The data rows read one by one: (dates, rain, second, third) with ``second`` the
+    PET or the minimum temperature and ``third`` the maximum temperature; raises an
+    :class:`InputError` naming the file, the line and the problem."""
     n = len(data)
     dates = np.empty(n, dtype="datetime64[D]")
     rain = np.empty(n)
@@ -288,6 +274,67 @@ def parse_weather(text, *, name="weather", latitude=None):
             if third[k] < second[k]:
                 raise InputError(f"{where}: {temp_cols[1]} {third[k]:g} is below "
                                  f"{temp_cols[0]} {second[k]:g}", param="weather")
+    return dates, rain, second, third
+
+
+def parse_weather(text, *, name="weather", latitude=None):
+    """Read a daily weather CSV from text.
+
+    Parameters
+    ----------
+    text : str
+        The file's content.
+    name : str
+        Shown in error messages.
+    latitude : float, optional
+        Latitude [degrees] for Hargreaves-Samani (required when the file gives
+        temperatures instead of PET).
+
+    Returns
+    -------
+    Weather
+
+    Raises
+    ------
+    drainplan.errors.InputError
+        One line naming the file, the line number and the problem: a missing
+        column, an unreadable or negative value, a repeated date, a gap.
+
+    Examples
+    --------
+    >>> w = parse_weather("date,rain_mm,pet_mm\\n2001-01-01,4.0,0.5\\n2001-01-02,0,0.6\\n")
+    >>> w.rain.tolist(), str(w.dates[-1])
+    ([0.004, 0.0], '2001-01-02')
+    >>> try:
+    ...     parse_weather("date,rain_mm,pet_mm\\n2001-01-01,4,0\\n2001-01-03,1,0\\n")
+    ... except ValueError as exc:
+    ...     print(str(exc)[:61])
+    weather line 3: date 2001-01-03 leaves a gap after 2001-01-01
+    """
+    lines = text.splitlines()
+    rows = [(i, ln) for i, ln in enumerate(lines, start=1)
+            if ln.strip() and not ln.lstrip().startswith("#")]
+    if not rows:
+        raise InputError(f"{name}: the file is empty", param="weather")
+    header_line, header = rows[0][0], next(csv.reader([rows[0][1]]))
+    cols, rain_col, pet_col, temp_cols = _columns(header, name)
+    idx = {c: cols.index(c) for c in cols}
+    if temp_cols is not None:
+        if latitude is None:
+            raise InputError(f"{name}: the file gives temperatures, not PET; the latitude is "
+                             "needed for Hargreaves-Samani (--latitude)", param="latitude")
+        lat = float(latitude)
+        if not (np.isfinite(lat) and -90.0 <= lat <= 90.0):
+            raise InputError(f"latitude {latitude} must lie between -90 and 90 degrees",
+                             param="latitude")
+    data = rows[1:]
+    if not data:
+        raise InputError(f"{name}: no data rows after the header (line {header_line})",
+                         param="weather")
+    parsed = _parse_rows_fast(data, cols, idx, rain_col, pet_col, temp_cols)
+    if parsed is None:                  # something to report: read line by line, say where
+        parsed = _parse_rows(data, cols, idx, rain_col, pet_col, temp_cols, name)
+    dates, rain, second, third = parsed
     to_m = 0.001 if rain_col.endswith("_mm") else _INCH
     rain = rain * to_m
     if pet_col is not None:

@@ -69,7 +69,8 @@ def quick_sheet(monkeypatch):
     import drainplan.outputs as outputs
     import drainplan.sheet as sheet
 
-    monkeypatch.setattr(outputs, "render_figures", lambda result: {"plan": b"PNG stand-in"})
+    monkeypatch.setattr(outputs, "render_figures",
+                        lambda result, names=None: {"plan": b"PNG stand-in"})
     calls = []
 
     def fake_sheet(summary, figs, path, **kw):
@@ -223,7 +224,7 @@ def test_interrupted_writer_leaves_nothing(result, quick_sheet, monkeypatch, tmp
     import drainplan.outputs as outputs
     import drainplan.sheet as sheet
 
-    monkeypatch.setattr(outputs, "render_figures", lambda result: {"plan": b"PNG"})
+    monkeypatch.setattr(outputs, "render_figures", lambda result, names=None: {"plan": b"PNG"})
     monkeypatch.setattr(sheet, "build_sheet", lambda s, f, path, **kw: Path(path).write_text("x"))
     _write(result, out)
     before = _tree(out)

@@ -19,6 +19,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from pyproj import CRS, Geod, Transformer
 
+from drainplan.errors import InputError
 from drainplan.gisio import SCALE_TOLERANCE, scale_error, to_metric
 
 GEOD = Geod(ellps="WGS84")
@@ -88,6 +89,30 @@ def test_to_metric_area_matches_geodesic(lat, lon, side):
     assert scale_error(work, metric) <= SCALE_TOLERANCE
     truth = _geodesic_area_ha(sq.to_crs("EPSG:4326").geometry.iloc[0]) * 1e4
     assert metric.geometry.iloc[0].area == pytest.approx(truth, rel=5e-3)
+
+
+def test_utm_zone_matches_geopandas():
+    """The local UTM zone drainplan picks is the one geopandas' ``estimate_utm_crs``
+    finds in the PROJ database (reference library), for seeded points over the UTM
+    latitudes, for fields given in lon/lat and in Web Mercator; and for an extent
+    across the antimeridian."""
+    from drainplan.gisio import _utm
+
+    rng = np.random.default_rng(3)
+    lon = rng.uniform(-179.9, 179.9, 20)
+    lat = rng.uniform(-79.5, 83.5, 20)
+    keep = np.abs((lon + 180.0) / 6.0 - np.round((lon + 180.0) / 6.0)) > 1e-4  # off zone edges
+    for x, y in zip(lon[keep], lat[keep]):
+        g = gpd.GeoDataFrame(geometry=[shapely.Point(x, y).buffer(0.001)], crs="EPSG:4326")
+        assert _utm(g) == g.estimate_utm_crs(), (x, y)
+        m = g.to_crs("EPSG:3857")
+        assert _utm(m) == m.estimate_utm_crs(), (x, y)
+    across = gpd.GeoDataFrame(geometry=[shapely.box(179.95, -17.1, 180.0, -17.0),
+                                        shapely.box(-180.0, -17.1, -179.99, -17.0)],
+                              crs="EPSG:4326").to_crs("EPSG:3832")
+    assert _utm(across) == across.estimate_utm_crs()
+    with pytest.raises(InputError, match="no UTM zone"):
+        _utm(gpd.GeoDataFrame(geometry=[shapely.Point(10.0, 86.0)], crs="EPSG:4326"))
 
 
 def test_polygons_with_z(run, tmp_path):

@@ -52,7 +52,8 @@ def test_cli_help_does_not_load_heavy_libraries():
 
 # Layers, lowest first (DEVELOPERS.md); a module may import only its own layer or lower.
 LAYERS = [
-    {"errors", "units", "_solve", "_validate", "_templates", "_text", "_textfile"},
+    {"errors", "units", "_solve", "_validate", "_templates", "_text", "_textfile",
+     "_background"},
     {"spacing", "soil", "auger_hole", "pedotransfer", "uncertainty"},
     {"geometry", "terrain", "soilmap"},
     {"network"},

@@ -331,3 +331,37 @@ def test_hooghoudt_mixed_block_matches_bracketed_solver():
     wide = on & (donnan > 1.001 * np.pi * r0)        # wider than the drains themselves
     assert wide.any() and np.isnan(L[on & (donnan < 0.999 * np.pi * r0)]).all()
     assert_allclose(L[wide], donnan[wide], rtol=1e-9)
+
+
+@pytest.mark.parametrize("flow_depth", ["equivalent", "equivalent-plus-half-head"])
+def test_glover_dumm_wide_range_matches_bracketed_solver(flow_depth):
+    """Beyond the practical range (K 0.003-50 m/d, 0.1-30 d, D 0.03-300 m, r 3 mm-0.5 m), an
+    array at a time: the bracketed solver on L^2 = pi^2 K t (d + extra) / (mu ln(c y0/yt))
+    (Glover-Dumm, method notes Eq. 4.1) with the library's equivalent depth."""
+    rng = np.random.default_rng(808)
+    n = 400
+    y0, ratio = 10 ** rng.uniform(-1.3, 0.5, n), rng.uniform(0.05, 0.95, n)
+    t, K, mu = 10 ** rng.uniform(-1, 1.5, n), 10 ** rng.uniform(-2.5, 1.7, n), \
+        rng.uniform(0.01, 0.3, n)
+    r0 = 10 ** rng.uniform(-2.5, -0.3, n)
+    D = np.maximum(10 ** rng.uniform(-1.5, 2.5, n), 1.5 * r0)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", ConvergenceWarning)
+        L = glover_dumm_spacing(initial_head=y0, final_head=y0 * ratio, time=t, k=K,
+                                drainable_porosity=mu, depth_to_barrier=D, drain_radius=r0,
+                                flow_depth=flow_depth)
+    fac = K * t / (mu * np.log(INITIAL_SHAPES["parabolic"] / ratio))
+    extra = 0.5 * y0 if flow_depth != "equivalent" else 0.0 * y0
+
+    def f(x, fac, D, r0, extra):
+        return x * x - np.pi ** 2 * fac * (_equivalent_depth_unchecked(x, D, r0) + extra)
+
+    lo = np.pi * r0 * (1 + 1e-6)
+    hi = np.pi * np.sqrt(fac * (D + extra)) * (1 + 1e-9)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", ConvergenceWarning)
+        ref = bracketed_root(f, lo, hi, (fac, D, r0, extra), xtol=1e-10).root
+    assert np.array_equal(np.isnan(L), np.isnan(ref))
+    ok = ~np.isnan(ref)
+    assert ok.sum() > 0.8 * n
+    assert_allclose(L[ok], ref[ok], rtol=1e-12, atol=1e-6)

@@ -4,6 +4,8 @@ import math
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from drainplan.errors import InputError
 from drainplan.weather import (extraterrestrial_radiation, hargreaves_samani, parse_season,
@@ -93,6 +95,68 @@ def test_temperatures_give_hargreaves_pet():
 def test_bad_weather_is_refused_with_its_line(text, match):
     with pytest.raises(InputError, match=match):
         parse_weather(text, latitude=40.0)
+
+
+@settings(max_examples=60, deadline=None)
+@given(n=st.integers(1, 40), temps=st.booleans(), flaw=st.sampled_from(
+    [None, "gap", "repeat", "negative", "empty", "word", "short", "order", "nan", "spaces"]),
+    at=st.integers(0, 39), seed=st.integers(0, 2**16))
+def test_whole_column_reader_agrees_with_the_line_reader(n, temps, flaw, at, seed):
+    """Property: the reader by whole columns (the fast path) gives what the reader line by
+    line gives, and a flawed file is refused with the line reader's message (derived
+    check: two readers of the same text)."""
+    import datetime
+
+    from drainplan import weather as wx
+
+    rng = np.random.default_rng(seed)
+    day0 = datetime.date(1999, 12, 20)
+    rows = []
+    for k in range(n):
+        d = (day0 + datetime.timedelta(days=k)).isoformat()
+        a, b = rng.uniform(0, 30), rng.uniform(-5, 10)
+        rows.append([d, f"{a:.1f}", f"{b:.1f}", f"{b + rng.uniform(0, 15):.1f}"] if temps
+                    else [d, f"{a:.1f}", f"{abs(b):.2f}"])
+    k = at % n
+    if flaw == "gap" and n > 1:
+        rows[k][0] = (day0 + datetime.timedelta(days=k + (1 if k else 2))).isoformat() \
+            if k < n - 1 else rows[k][0]
+    elif flaw == "repeat" and k > 0:
+        rows[k][0] = rows[k - 1][0]
+    elif flaw == "negative":
+        rows[k][1] = "-1.5"
+    elif flaw == "empty":
+        rows[k][2] = ""
+    elif flaw == "word":
+        rows[k][1] = "wet"
+    elif flaw == "short":
+        rows[k] = rows[k][:2]
+    elif flaw == "order" and k > 0:
+        rows[k][0], rows[k - 1][0] = rows[k - 1][0], rows[k][0]
+    elif flaw == "nan":
+        rows[k][1] = "nan"
+    elif flaw == "spaces":
+        rows[k][1] = f" {rows[k][1]} "
+    head = "date,rain_mm,tmin_c,tmax_c" if temps else "date,rain_mm,pet_mm"
+    text = head + "\n" + "\n".join(",".join(r) for r in rows) + "\n"
+    data = [(i + 2, ln) for i, ln in enumerate(text.splitlines()[1:])]
+    cols = head.split(",")
+    idx = {c: cols.index(c) for c in cols}
+    args = (data, cols, idx, "rain_mm", None if temps else "pet_mm",
+            ("tmin_c", "tmax_c") if temps else None)
+    try:
+        slow = wx._parse_rows(*args, "w.csv")
+    except InputError as exc:
+        assert wx._parse_rows_fast(*args) is None
+        with pytest.raises(InputError) as info:
+            parse_weather(text, name="w.csv", latitude=40.0)
+        assert str(info.value) == str(exc)
+        return
+    fast = wx._parse_rows_fast(*args)
+    assert fast is not None
+    np.testing.assert_array_equal(fast[0], slow[0])
+    for j in (1, 2) + ((3,) if temps else ()):
+        np.testing.assert_array_equal(fast[j], slow[j])
 
 
 def test_missing_file(tmp_path):

@@ -181,20 +181,160 @@ def group_problems(violations, first=3):
     return out
 
 
-def _samples(line, extra=()):
-    """Chainages every ``_STEP`` m (ends and ``extra`` chainages included) and points
-    (interpolated along the polyline's vertices with numpy)."""
-    c = np.asarray(line.coords, float)[:, :2]
-    cum = np.r_[0.0, np.cumsum(np.hypot(*np.diff(c, axis=0).T))]
-    length = float(cum[-1])
-    n = max(2, int(np.ceil(length / _STEP)) + 1)
-    ch = np.linspace(0.0, length, n)
-    if len(extra):
-        ex = np.unique(np.clip(np.asarray(extra, float), 0.0, length))
-        near = np.abs(ch[:, None] - ex[None, :]).min(axis=1) < 1.0
-        near[[0, -1]] = False
-        ch = np.unique(np.r_[ch[~near], ex])
-    return ch, np.c_[np.interp(ch, cum, c[:, 0]), np.interp(ch, cum, c[:, 1])]
+# ---------------------------------------------------------------- ragged arrays
+# Many pipes' samples live in one array; pipe i holds start[i]:start[i] + count[i].
+# Per-pipe running operations (cumulative sums, running minima) run on padded 2-D
+# blocks of pipes of similar length, one numpy call per block: the same sequence of
+# operations per pipe as a loop over pipes, so the same numbers.
+
+_BLOCK_ROWS = 2048
+
+
+def _blocks(counts):
+    """Pipes grouped into blocks of similar sample counts: (pipe indices, width)."""
+    order = np.argsort(counts, kind="stable")
+    for s in range(0, len(order), _BLOCK_ROWS):
+        idx = order[s:s + _BLOCK_ROWS]
+        if idx.size:
+            yield idx, int(counts[idx].max())
+
+
+def _padded(values, start, counts, idx, width, fill):
+    """Block of the pipes ``idx`` as rows padded with ``fill``; also the mask of real
+    entries and their positions in ``values``."""
+    col = np.arange(width)[None, :]
+    n = counts[idx][:, None]
+    valid = col < n
+    pos = np.minimum(start[idx][:, None] + np.minimum(col, np.maximum(n - 1, 0)),
+                     max(len(values) - 1, 0))
+    if not len(values):
+        return np.full(pos.shape, fill, float), valid & False, pos
+    return np.where(valid, values[pos], fill), valid, pos
+
+
+def _ranges(lo, hi):
+    """Concatenated ``arange(lo[i], hi[i])`` for all i."""
+    lo, hi = np.asarray(lo, np.int64), np.asarray(hi, np.int64)
+    n = np.maximum(hi - lo, 0)
+    if n.sum() == 0:
+        return np.zeros(0, np.int64)
+    rep = np.repeat(lo - np.r_[0, np.cumsum(n)[:-1]], n)
+    return np.arange(int(n.sum()), dtype=np.int64) + rep
+
+
+def _line_vertices(lines):
+    """Vertices of many lines: (xy, start, count, cumulative chainage at each vertex)."""
+    import shapely
+
+    xy, which = shapely.get_coordinates(np.asarray(lines, dtype=object), return_index=True)
+    counts = np.bincount(which, minlength=len(lines)).astype(np.int64)
+    start = np.r_[0, np.cumsum(counts)[:-1]].astype(np.int64) if len(lines) else \
+        np.zeros(0, np.int64)
+    step = np.zeros(len(xy))
+    if len(xy) > 1:
+        step[1:] = np.hypot(*np.diff(xy, axis=0).T)
+    step[start[counts > 0]] = 0.0
+    cum = np.empty(len(xy))
+    for idx, width in _blocks(counts):
+        block, valid, pos = _padded(step, start, counts, idx, width, 0.0)
+        cum[pos[valid]] = np.cumsum(block, axis=1)[valid]
+    return xy, start, counts, cum
+
+
+def _interp_along(owner, ch, xy, start, counts, cum):
+    """Points at chainages ``ch`` along the lines ``owner`` (as ``np.interp`` over each
+    line's vertex chainages, for all samples at once)."""
+    s = start[owner]
+    last = s + counts[owner] - 1
+    j = s.copy()
+    bent = counts[owner] > 2                       # lines of more than one segment
+    if np.any(bent):
+        # segment of each sample: searched on chainages made increasing across lines
+        span = float(cum.max(initial=0.0)) + 10.0
+        line_of_vertex = np.repeat(np.arange(len(start)), counts)
+        jb = np.searchsorted(cum + span * line_of_vertex, ch[bent] + span * owner[bent],
+                             side="right") - 1
+        j[bent] = np.clip(jb, s[bent], np.maximum(last[bent] - 1, s[bent]))
+    j1 = np.minimum(j + 1, last)
+    out = np.empty((len(ch), 2))
+    at_end = ch >= cum[last]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        dx = cum[j1] - cum[j]
+        off = ch - cum[j]
+        for d in range(2):
+            f0 = xy[j, d]
+            slope = (xy[j1, d] - f0) / dx
+            v = slope * off + f0
+            bad = np.flatnonzero(np.isnan(v))
+            if bad.size:
+                f1 = xy[j1[bad], d]
+                w = slope[bad] * (ch[bad] - cum[j1[bad]]) + f1
+                v[bad] = np.where(np.isnan(w) & (f0[bad] == f1), f0[bad], w)
+            v[at_end] = xy[last[at_end], d]
+            out[:, d] = v
+    return out
+
+
+def _sample_lines(lines, extra_owner=None, extra_ch=None, chunk=200_000):
+    """Samples of many lines: chainages every ``_STEP`` m (ends included; for
+    carriers also the junction chainages, dropping regular samples within 1 m of
+    one), and their points.
+
+    Returns ``(ch, xy, start, count, length)`` with the samples of line i at
+    ``start[i]:start[i] + count[i]``. Worked in chunks of about ``chunk`` samples.
+    """
+    m = len(lines)
+    vxy, vstart, vcount, cum = _line_vertices(lines)
+    length = np.where(vcount > 0, cum[np.maximum(vstart + vcount - 1, 0)], 0.0)
+    n = np.maximum(2, np.ceil(length / _STEP).astype(np.int64) + 1)
+    eo = ev = None
+    if extra_owner is not None and len(extra_owner):
+        eo = np.asarray(extra_owner, np.int64)
+        ev = np.clip(np.asarray(extra_ch, float), 0.0, length[eo])
+        o = np.lexsort((ev, eo))
+        eo, ev = eo[o], ev[o]
+        keep = np.r_[True, (np.diff(eo) != 0) | (np.diff(ev) != 0)]
+        eo, ev = eo[keep], ev[keep]
+    # chunks of whole lines
+    edges = np.searchsorted(np.cumsum(n), np.arange(chunk, int(n.sum()), chunk))
+    edges = np.unique(np.r_[0, edges + 1, m]) if m else np.array([0])
+    edges = edges[edges <= m]
+    chs, xys, counts = [], [], np.zeros(m, np.int64)
+    for a, b in zip(edges[:-1], edges[1:]):
+        nn = n[a:b]
+        owner = np.repeat(np.arange(a, b), nn)
+        k = np.arange(int(nn.sum())) - np.repeat(np.r_[0, np.cumsum(nn)[:-1]], nn)
+        ch = k * np.repeat(length[a:b] / (nn - 1), nn)      # as np.linspace(0, L, n)
+        is_last = k == np.repeat(nn - 1, nn)
+        ch[is_last] = length[a:b]
+        if eo is not None:
+            ea, eb = np.searchsorted(eo, [a, b])
+            if eb > ea:
+                co, cv = eo[ea:eb], ev[ea:eb]
+                has = np.zeros(m, bool)
+                has[co] = True
+                # the nearest junction chainage on the same line, for every sample
+                span = float(length[a:b].max(initial=0.0)) + 10.0
+                pos = np.searchsorted(cv + span * (co - a), ch + span * (owner - a))
+                near = np.zeros(len(ch), bool)
+                for p in (pos - 1, pos):
+                    pc = np.clip(p, 0, len(cv) - 1)
+                    near |= (p >= 0) & (p < len(cv)) & (co[pc] == owner) & \
+                        (np.abs(ch - cv[pc]) < 1.0)
+                near &= (k != 0) & ~is_last & has[owner]
+                owner = np.r_[owner[~near], co]
+                ch = np.r_[ch[~near], cv]
+                o = np.lexsort((ch, owner))
+                owner, ch = owner[o], ch[o]
+                keep = np.r_[True, (np.diff(owner) != 0) | (np.diff(ch) != 0)]
+                owner, ch = owner[keep], ch[keep]
+        counts[a:b] = np.bincount(owner - a, minlength=b - a)
+        chs.append(ch)
+        xys.append(_interp_along(owner, ch, vxy, vstart, vcount, cum))
+    start = np.r_[0, np.cumsum(counts)[:-1]].astype(np.int64) if m else np.zeros(0, np.int64)
+    ch = np.concatenate(chs) if chs else np.zeros(0)
+    xy = np.concatenate(xys) if xys else np.zeros((0, 2))
+    return ch, xy, start, counts, length
 
 
 def _highest_invert(ch, cap, min_grade, max_grade=None):
@@ -207,6 +347,31 @@ def _highest_invert(ch, cap, min_grade, max_grade=None):
         w = (z + max_grade * ch)[::-1]
         z = np.minimum(z, np.minimum.accumulate(w)[::-1] - max_grade * ch)
     return z
+
+
+def _highest_invert_many(ch, cap, start, counts, min_grade, max_grade=None):
+    """:func:`_highest_invert` of many pipes at once (padded blocks)."""
+    out = np.empty(len(ch))
+    for idx, width in _blocks(counts):
+        c, valid, pos = _padded(ch, start, counts, idx, width, 0.0)
+        k, _, _ = _padded(cap, start, counts, idx, width, np.inf)
+        z = np.minimum.accumulate(k + min_grade * c, axis=1) - min_grade * c
+        if max_grade is not None:
+            w = np.where(valid, z + max_grade * c, np.inf)[:, ::-1]
+            z = np.minimum(z, np.minimum.accumulate(w, axis=1)[:, ::-1] - max_grade * c)
+        out[pos[valid]] = z[valid]
+    return out
+
+
+def _nearest_index(ch, x):
+    """Index of the sample of ``ch`` (sorted) nearest each ``x``; the first on a tie
+    (as ``argmin(abs(ch - x))``)."""
+    p = np.clip(np.searchsorted(ch, x), 1, len(ch) - 1) if len(ch) > 1 else \
+        np.zeros(len(x), np.int64)
+    if len(ch) < 2:
+        return p
+    left = np.abs(ch[p - 1] - x) <= np.abs(ch[p] - x)
+    return np.where(left, p - 1, p)
 
 
 def design_network(runs, carriers, options, *, surface=None, outlets=None):
@@ -228,6 +393,14 @@ def design_network(runs, carriers, options, *, surface=None, outlets=None):
     Returns
     -------
     PipeDesign
+
+    Notes
+    -----
+    The work is done on arrays: every pipe's samples in one array, the ground
+    sampled once for all of them, the laterals graded and checked together, the
+    carriers graded in one pass from the leaves (each needs the inverts of the pipes
+    it receives) and sized one tree level at a time (each needs the sizes it
+    receives). The cost grows linearly with the number of pipes.
     """
     import shapely
 
@@ -276,104 +449,132 @@ def design_network(runs, carriers, options, *, surface=None, outlets=None):
         for k, y in enumerate(reversed(seen)):
             depth[y] = d0 + 1 + k
     order = sorted(car, key=lambda c: (-depth[c], c))
+    pos_of = {cid: k for k, cid in enumerate(order)}
+    nc, nr = len(order), len(runs)
+    c_line = np.array([car[c].line for c in order], dtype=object)
+    c_to = np.array([pos_of[car[c].to] if car[c].to is not None else -1 for c in order],
+                    np.int64)
 
     # junction chainages on the receiving carriers
     run_to = [r.target() for r in runs]
-    run_end = np.array([np.asarray(r.line.coords)[-1] for r in runs]) if runs else \
-        np.empty((0, 2))
-    run_jch = np.full(len(runs), np.nan)
-    by_carrier = {}
-    for i, t in enumerate(run_to):
-        if t is not None:
-            by_carrier.setdefault(t, []).append(i)
-    for t, idx in by_carrier.items():
-        run_jch[idx] = shapely.line_locate_point(car[t].line, shapely.points(run_end[idx]))
-    car_jch = {}
-    inflow_car = {}
-    for c in carriers:
-        if c.to is not None:
-            end = shapely.Point(np.asarray(c.line.coords)[-1])
-            car_jch[c.carrier_id] = float(car[c.to].line.project(end))
-            inflow_car.setdefault(c.to, []).append(c.carrier_id)
+    r_line = np.array([r.line for r in runs], dtype=object)
+    r_to = np.array([pos_of[t] if t is not None else -1 for t in run_to], np.int64)
+    if nr:
+        rxy, rwhich = shapely.get_coordinates(r_line, return_index=True)
+        run_end = rxy[np.r_[np.flatnonzero(np.diff(rwhich)), len(rwhich) - 1]]
+    else:
+        run_end = np.empty((0, 2))
+    run_jch = np.full(nr, np.nan)
+    joined = np.flatnonzero(r_to >= 0)
+    if joined.size:
+        run_jch[joined] = shapely.line_locate_point(c_line[r_to[joined]],
+                                                    shapely.points(run_end[joined]))
+    # carriers entering another: where, in the order of the carriers list
+    inflow_order = np.array([pos_of[c.carrier_id] for c in carriers if c.to is not None],
+                            np.int64)
+    car_jch = np.full(nc, np.nan)
+    if inflow_order.size:
+        cxy, cwhich = shapely.get_coordinates(c_line[inflow_order], return_index=True)
+        ends = cxy[np.r_[np.flatnonzero(np.diff(cwhich)), len(cwhich) - 1]]
+        car_jch[inflow_order] = shapely.line_locate_point(c_line[c_to[inflow_order]],
+                                                     shapely.points(ends))
+    # what enters each carrier: runs (in run order), then carriers (in list order)
+    runs_into = _group(r_to[joined], joined, nc)
+    cars_into = _group(c_to[inflow_order], inflow_order, nc)
 
     # samples of every pipe; the ground sampled once for all of them
-    lat_s = [_samples(r.line) for r in runs]
-    car_s = {cid: _samples(car[cid].line,
-                           list(run_jch[by_carrier.get(cid, [])]) +
-                           [car_jch[k] for k in inflow_car.get(cid, [])]) for cid in car}
-    ground_lat, ground_car = [None] * len(runs), {}
+    lat_ch, lat_xy, lat_start, lat_n, r_len = _sample_lines(r_line)
+    ex_owner = np.r_[r_to[joined], c_to[inflow_order]]
+    ex_ch = np.r_[run_jch[joined], car_jch[inflow_order]]
+    car_ch, car_xy, car_start, car_n, c_len = _sample_lines(c_line, ex_owner, ex_ch)
+    lat_ground = car_ground = None
     if surface is not None:
-        pts = [s[1] for s in lat_s] + [car_s[c][1] for c in order]
-        sizes = np.cumsum([0] + [len(p) for p in pts])
-        z = surface(np.vstack(pts)) if pts else np.empty(0)
-        for i in range(len(runs)):
-            ground_lat[i] = z[sizes[i]:sizes[i + 1]]
-        for k, c in enumerate(order):
-            ground_car[c] = z[sizes[len(runs) + k]:sizes[len(runs) + k + 1]]
+        z = surface(np.vstack([lat_xy, car_xy])) if len(lat_xy) + len(car_xy) else \
+            np.empty(0)
+        lat_ground, car_ground = z[:len(lat_xy)], z[len(lat_xy):]
+    lat_last = lat_start + lat_n - 1
+    car_last = car_start + car_n - 1
 
     # flows are known from the tree alone: the size each carrier needs at the minimum
     # grade sets how deep it must lie for its cover (outside diameter)
-    od_at = _outside_by_chainage(runs, order, car, by_carrier, run_jch, inflow_car,
-                                 car_jch, series, options)
+    areas_lat = np.array([r.perforated_length * r.spacing for r in runs], float)
+    od_jch, od_val = _outside_by_chainage(order, runs_into, cars_into, run_jch, car_jch,
+                                          areas_lat, series, options)
 
     # ---- pass 1, leaves to outlet: highest inverts within the design depth
-    lat_z = [None] * len(runs)
-    car_z = {}
-    end_z = {}                                      # carrier id -> invert at its end
+    lat_z = car_z = None
+    end_z = np.full(nc, np.nan)                      # carrier invert at its end
     if surface is not None:
-        for i, r in enumerate(runs):
-            ch, _ = lat_s[i]
-            lat_z[i] = _highest_invert(ch, ground_lat[i] - options.drain_depth, gmin,
-                                       options.max_grade)
-        for cid in order:
-            ch, _ = car_s[cid]
+        lat_z = _highest_invert_many(lat_ch, lat_ground - options.drain_depth, lat_start,
+                                     lat_n, gmin, options.max_grade)
+        lat_end_z = lat_z[lat_last] if nr else np.zeros(0)
+        car_z = np.empty(len(car_ch))
+        for k in range(nc):
+            a, b = car_start[k], car_start[k] + car_n[k]
+            ch = car_ch[a:b]
+            jj = od_jch[k]
+            kk = np.searchsorted(jj, ch + 1e-6, side="right") - 1
+            od = np.where(kk >= 0, od_val[k][np.maximum(kk, 0)] if jj.size else 0.0, 0.0)
             # deep enough for the main depth and for the cover over the pipe its flow needs
-            cap = ground_car[cid] - np.maximum(main_depth,
-                                               options.min_cover + od_at[cid](ch))
+            cap = car_ground[a:b] - np.maximum(main_depth, options.min_cover + od)
             # inflows: the receiving invert at or below the joining invert
-            for i in by_carrier.get(cid, []):
-                k = int(np.argmin(np.abs(ch - run_jch[i])))
-                cap[k] = min(cap[k], lat_z[i][-1])
-            for c2 in inflow_car.get(cid, []):
-                k = int(np.argmin(np.abs(ch - car_jch[c2])))
-                cap[k] = min(cap[k], end_z[c2])
-            car_z[cid] = _highest_invert(ch, cap, gmin, options.max_grade)
-            end_z[cid] = float(car_z[cid][-1])
+            ri = runs_into[k]
+            if ri.size:
+                np.minimum.at(cap, _nearest_index(ch, run_jch[ri]), lat_end_z[ri])
+            ci = cars_into[k]
+            if ci.size:
+                np.minimum.at(cap, _nearest_index(ch, car_jch[ci]), end_z[ci])
+            zz = _highest_invert(ch, cap, gmin, options.max_grade)
+            car_z[a:b] = zz
+            end_z[k] = zz[-1]
 
     # ---- the outlets, then pass 2, outlet up: raised where the receiving water needs it
     outlet_rows = []
-    roots = [c for c in order if car[c].to is None]
+    roots = [order[k] for k in range(nc) if c_to[k] < 0]
     root_runs = [i for i, t in enumerate(run_to) if t is None]
     if surface is not None:
         need = (options.ditch_water_level + options.outfall_margin
                 if options.ditch_water_level is not None else None)
-        for cid in reversed(order):                 # outlet first
-            ch, xy = car_s[cid]
-            c = car[cid]
-            if c.to is None:
-                floor_end = need if need is not None else -np.inf
-                if need is not None and end_z[cid] < need:
+        lv = np.array([depth[c] for c in order], np.int64)
+        blocks = np.r_[0, np.flatnonzero(np.diff(lv)) + 1, nc] if nc else np.zeros(1, int)
+        for la, lb in list(zip(blocks[:-1], blocks[1:]))[::-1]:     # outlet first
+            ks = np.arange(la, lb)
+            floor_end = np.empty(lb - la)
+            root = c_to[ks] < 0
+            for k in ks[root][::-1]:
+                floor_end[k - la] = need if need is not None else -np.inf
+                if need is not None and end_z[k] < need:
+                    e = car_last[k]
                     violations.append(_violation(
-                        "outlet", cid, ch[-1], xy[-1],
-                        f"outlet invert {end_z[cid]:.2f} m is below the receiving water "
+                        "outlet", order[k], car_ch[e], car_xy[e],
+                        f"outlet invert {end_z[k]:.2f} m is below the receiving water "
                         f"level {options.ditch_water_level:.2f} m + {options.outfall_margin:.2f}"
                         f" m; raised to {need:.2f} m (the pipes above lose depth)",
                         "lower the ditch, use a pumped outlet, or a shallower design depth",
                         ))
-            else:
-                pch, _ = car_s[c.to]
-                floor_end = float(np.interp(car_jch[cid], pch, car_z[c.to]))
-            car_z[cid] = np.maximum(car_z[cid], floor_end + gmin * (ch[-1] - ch))
-            end_z[cid] = float(car_z[cid][-1])
-        for i, r in enumerate(runs):
-            ch, xy = lat_s[i]
-            t = run_to[i]
-            if t is None:
-                floor_end = need if need is not None else -np.inf
-            else:
-                pch, _ = car_s[t]
-                floor_end = float(np.interp(run_jch[i], pch, car_z[t]))
-            lat_z[i] = np.maximum(lat_z[i], floor_end + gmin * (ch[-1] - ch))
+            if np.any(~root):
+                # where each joins its receiving carrier (the level below, done already)
+                par = c_to[ks[~root]]
+                pa, pb = int(par.min()), int(par.max()) + 1
+                s0, s1 = car_start[pa], car_start[pb - 1] + car_n[pb - 1]
+                zl = car_z[s0:s1]
+                floor_end[~root] = _interp_along(
+                    par - pa, car_jch[ks[~root]], np.stack([zl, zl], axis=1),
+                    car_start[pa:pb] - s0, car_n[pa:pb], car_ch[s0:s1])[:, 0]
+            s0, s1 = car_start[la], car_start[lb - 1] + car_n[lb - 1]
+            own = np.repeat(np.arange(lb - la), car_n[la:lb])
+            ch = car_ch[s0:s1]
+            car_z[s0:s1] = np.maximum(car_z[s0:s1], floor_end[own] + gmin *
+                                      (car_ch[car_last[la:lb]][own] - ch))
+            end_z[la:lb] = car_z[car_last[la:lb]]
+        floor = np.full(nr, need if need is not None else -np.inf)
+        if joined.size:
+            floor[joined] = _interp_along(r_to[joined], run_jch[joined],
+                                          np.stack([car_z, car_z], axis=1), car_start,
+                                          car_n, car_ch)[:, 0]
+        if nr:
+            owner = np.repeat(np.arange(nr), lat_n)
+            lat_z = np.maximum(lat_z, floor[owner] + gmin * (lat_ch[lat_last][owner] - lat_ch))
         if options.ditch_water_level is None:
             notes.append("outlet not checked: no receiving water level given "
                          "(--ditch-water-level); the outlet invert follows the design "
@@ -383,93 +584,90 @@ def design_network(runs, carriers, options, *, surface=None, outlets=None):
 
     # ---- reaches: laterals, then carriers split at their junctions
     lat_rows = []
+    lat_area = areas_lat / 1e4
+    lat_flow = (np.asarray(design_flow(q, areas_lat), float) * 1e3 if nr
+                else np.zeros(0))
+    length = shapely.length(r_line) if nr else np.zeros(0)
     for i, r in enumerate(runs):
-        ch, xy = lat_s[i]
-        length = float(r.line.length)
-        area = r.perforated_length * r.spacing
+        a = lat_start[i]
         row = {"reach_id": r.run_id, "kind": "lateral", "field_id": r.field_id,
-               "from": "end", "to": run_to[i] or "outlet", "length_m": length,
+               "from": "end", "to": run_to[i] or "outlet", "length_m": float(length[i]),
                "perforated_length_m": r.perforated_length,
                "connector_length_m": r.connector_length,
-               "drained_area_ha": area / 1e4, "flow_l_s": float(design_flow(q, area)) * 1e3,
-               "warnings": [], "_start": xy[0], "_end": xy[-1]}
+               "drained_area_ha": float(lat_area[i]), "flow_l_s": float(lat_flow[i]),
+               "warnings": [], "_start": lat_xy[a], "_end": lat_xy[lat_last[i]]}
         if surface is None:
             row.update(grade=options.assumed_grade, invert_up_m=None, invert_down_m=None,
                        cover_min_m=None)
         else:
-            z = lat_z[i]
-            row.update(grade=float((z[0] - z[-1]) / length) if length > 0 else gmin,
-                       invert_up_m=float(z[0]), invert_down_m=float(z[-1]))
-            profiles[r.run_id] = {"chainage": ch, "ground": ground_lat[i], "invert": z}
+            z0, z1 = float(lat_z[a]), float(lat_z[lat_last[i]])
+            row.update(grade=float((z0 - z1) / length[i]) if length[i] > 0 else gmin,
+                       invert_up_m=z0, invert_down_m=z1)
+            sl = slice(a, lat_last[i] + 1)
+            profiles[r.run_id] = {"chainage": lat_ch[sl], "ground": lat_ground[sl],
+                                  "invert": lat_z[sl]}
         lat_rows.append(row)
     _size_rows(lat_rows, series, options, violations, uniform_inflow=True)
+    lat_size = np.array([_size_index(r, series) for r in lat_rows], np.int64)
+    lat_area_back = lat_area * 1e4
 
     car_rows = {}
-    area_in = {}                                   # carrier id -> total area it delivers
-    size_out = {}                                  # carrier id -> size index at its end
-    for cid in order:
-        c = car[cid]
-        ch, xy = car_s[cid]
-        L = float(c.line.length)
-        inflow = [(run_jch[i], lat_rows[i]["drained_area_ha"] * 1e4,
-                   _size_index(lat_rows[i], series)) for i in by_carrier.get(cid, [])]
-        inflow += [(car_jch[k], area_in[k], size_out[k]) for k in inflow_car.get(cid, [])]
-        jch = np.array([x[0] for x in inflow]) if inflow else np.zeros(0)
-        areas = np.array([x[1] for x in inflow]) if inflow else np.zeros(0)
-        sizes_in = np.array([x[2] for x in inflow], int) if inflow else np.zeros(0, int)
-        cuts = np.unique(np.clip(np.r_[0.0, jch, L], 0.0, L).round(6))
-        cuts[0], cuts[-1] = 0.0, L
-        rows = []
-        for k in range(len(cuts) - 1):
-            a, b = cuts[k], cuts[k + 1]
-            if b - a < 1e-6:
-                continue
-            up = jch <= a + 1e-6
-            up_area = float(areas[up].sum())
-            row = {"reach_id": f"{cid}{len(rows) + 1:02d}", "kind": c.kind,
-                   "field_id": c.field_id, "carrier_id": cid,
-                   "from": f"{a:.1f} m", "to": f"{b:.1f} m" if b < L - 1e-6 else
-                   (c.to or f"outlet {c.outlet}"), "length_m": float(b - a),
-                   "drained_area_ha": up_area / 1e4,
-                   "flow_l_s": float(design_flow(q, up_area)) * 1e3 if up_area > 0 else 0.0,
-                   "warnings": [], "chainage_m": [float(a), float(b)],
-                   "_floor": int(sizes_in[up].max(initial=-1)),
-                   "_start": np.asarray(c.line.interpolate(a).coords[0]),
-                   "_end": np.asarray(c.line.interpolate(b).coords[0])}
-            if surface is None:
-                row.update(grade=options.assumed_grade, invert_up_m=None,
-                           invert_down_m=None, cover_min_m=None)
-            else:
-                iu, idn = np.interp([a, b], ch, car_z[cid])
-                row.update(grade=float((iu - idn) / (b - a)), invert_up_m=float(iu),
-                           invert_down_m=float(idn))
-            rows.append(row)
-        if not rows:                      # a carrier of no length passes everything on
-            area_in[cid] = float(areas.sum())
-            size_out[cid] = int(sizes_in.max(initial=-1))
+    area_in = np.zeros(nc)                         # total area each carrier delivers
+    size_out = np.full(nc, -1, np.int64)           # size index at each carrier's end
+    # what enters each carrier, grouped by carrier: runs (in run order), then carriers
+    ev_own = np.concatenate((r_to[joined], c_to[inflow_order]))
+    ev_ref = np.concatenate((joined, inflow_order))
+    ev_run = np.concatenate((np.ones(joined.size, bool), np.zeros(inflow_order.size, bool)))
+    o = np.argsort(ev_own, kind="stable")
+    ev_own, ev_ref, ev_run = ev_own[o], ev_ref[o], ev_run[o]
+    ev_jch = np.where(ev_run, run_jch[np.where(ev_run, ev_ref, 0)] if nr else 0.0,
+                      car_jch[np.where(ev_run, 0, ev_ref)] if nc else 0.0)
+    lv = np.array([depth[c] for c in order], np.int64)
+    level_start = np.r_[0, np.flatnonzero(np.diff(lv)) + 1, nc] if nc else np.zeros(1, int)
+    for la, lb in zip(level_start[:-1], level_start[1:]):
+        rows_of, lv_rows = _level_reaches(
+            la, lb, order, car, c_len, ev_own, ev_ref, ev_run, ev_jch, lat_area_back,
+            lat_size, area_in, size_out, q, surface, options,
+            (car_ch, car_z, car_start, car_n) if surface is not None else None)
+        if not lv_rows:
             continue
-        _size_rows(rows, series, options, violations, uniform_inflow=False, taper=True,
-                   min_index=np.array([r.pop("_floor") for r in rows], int))
-        area_in[cid] = float(areas.sum())
-        size_out[cid] = _size_index(rows[-1], series)
-        car_rows[cid] = rows
-        if surface is not None:
-            profiles[cid] = {"chainage": ch, "ground": ground_car[cid], "invert": car_z[cid]}
+        group = np.array([r.pop("_k") for r in lv_rows], np.int64)
+        ln = c_line[group]
+        ab = np.array([r["chainage_m"] for r in lv_rows], float)
+        p0 = shapely.get_coordinates(shapely.line_interpolate_point(ln, ab[:, 0]))
+        p1 = shapely.get_coordinates(shapely.line_interpolate_point(ln, ab[:, 1]))
+        floors = np.array([r.pop("_floor") for r in lv_rows], np.int64)
+        for m, row in enumerate(lv_rows):
+            row["_start"], row["_end"] = p0[m], p1[m]
+        _size_rows(lv_rows, series, options, violations, uniform_inflow=False, taper=True,
+                   min_index=floors, groups=group)
+        for k, (first, cnt) in rows_of.items():
+            rows = lv_rows[first:first + cnt]
+            car_rows[order[k]] = rows
+            size_out[k] = _size_index(rows[-1], series)
+            if surface is not None:
+                a, b = car_start[k], car_start[k] + car_n[k]
+                profiles[order[k]] = {"chainage": car_ch[a:b], "ground": car_ground[a:b],
+                                      "invert": car_z[a:b]}
 
     # ---- checks along every pipe: depth, cover, grade
     if surface is not None:
-        for i, row in enumerate(lat_rows):
-            ch, xy = lat_s[i]
-            _profile_checks(row, ch, xy, ground_lat[i], lat_z[i], series, options,
-                            violations, "lateral")
-        for cid, rows in car_rows.items():
-            ch, xy = car_s[cid]
-            for row in rows:
-                a, b = row["chainage_m"]
-                sel = (ch >= a - 1e-9) & (ch <= b + 1e-9)
-                _profile_checks(row, ch[sel], xy[sel], ground_car[cid][sel],
-                                car_z[cid][sel], series, options, violations, row["kind"])
-        _high_side(runs, lat_s, ground_lat, violations)
+        car_k = [(pos_of[cid], rows) for cid, rows in car_rows.items()]
+        c_rows = [row for _, rows in car_k for row in rows]
+        lo_hi = []
+        for k, rows in car_k:
+            a, b = car_start[k], car_start[k] + car_n[k]
+            ch = car_ch[a:b]
+            ab = np.array([r["chainage_m"] for r in rows], float)
+            lo_hi.append(np.stack([a + np.searchsorted(ch, ab[:, 0] - 1e-9, side="left"),
+                                   a + np.searchsorted(ch, ab[:, 1] + 1e-9, side="right")],
+                                  axis=1))
+        lo_hi = np.vstack(lo_hi) if lo_hi else np.zeros((0, 2), np.int64)
+        _profile_checks(lat_rows, lat_start, lat_start + lat_n, lat_ch, lat_xy, lat_ground,
+                        lat_z, series, options, violations)
+        _profile_checks(c_rows, lo_hi[:, 0], lo_hi[:, 1], car_ch, car_xy, car_ground, car_z,
+                        series, options, violations)
+        _high_side(runs, lat_ground, lat_start, lat_last, length, violations)
     reaches = lat_rows + [r for cid in order for r in car_rows.get(cid, [])]
     speed = []
     for row in reaches:
@@ -486,17 +684,18 @@ def design_network(runs, carriers, options, *, surface=None, outlets=None):
     violations.extend(speed)
 
     # ---- outlets: the flow at each
-    out_ids = sorted({car[c].outlet for c in roots} | ({"own end"} if root_runs else set()))
     for cid in roots:
+        k = pos_of[cid]
         last = car_rows.get(cid, [None])[-1]
+        c_end = car_xy[car_last[k]] if car_n[k] else \
+            np.asarray(car[cid].line.coords)[-1]
         outlet_rows.append({"outlet_id": car[cid].outlet, "carrier_id": cid,
                             "field_id": car[cid].field_id if car[cid].kind != "trunk" else "",
-                            "flow_l_s": area_in[cid] * q / 86400.0 * 1e3,
-                            "drained_area_ha": area_in[cid] / 1e4,
-                            "invert_m": end_z.get(cid),
+                            "flow_l_s": area_in[k] * q / 86400.0 * 1e3,
+                            "drained_area_ha": area_in[k] / 1e4,
+                            "invert_m": float(end_z[k]) if surface is not None else None,
                             "size": last["size"] if last else None,
-                            "x": float(np.asarray(car[cid].line.coords)[-1][0]),
-                            "y": float(np.asarray(car[cid].line.coords)[-1][1])})
+                            "x": float(c_end[0]), "y": float(c_end[1])})
     for i in root_runs:
         r = lat_rows[i]
         outlet_rows.append({"outlet_id": f"{runs[i].field_id} (lateral end)",
@@ -504,7 +703,6 @@ def design_network(runs, carriers, options, *, surface=None, outlets=None):
                             "flow_l_s": r["flow_l_s"], "drained_area_ha": r["drained_area_ha"],
                             "invert_m": r["invert_down_m"], "size": r.get("size"),
                             "x": float(r["_end"][0]), "y": float(r["_end"][1])})
-    del out_ids
     # merge roots sharing an outlet point (several mains ending at one outlet)
     merged = {}
     for o in outlet_rows:
@@ -518,17 +716,18 @@ def design_network(runs, carriers, options, *, surface=None, outlets=None):
     outlet_rows = list(merged.values())
 
     for row in reaches:
-        for k in [k for k in row if k.startswith("_")]:
-            row.pop(k)
+        row.pop("_start", None)
+        row.pop("_end", None)
         row["warnings"] = "; ".join(row["warnings"])
 
     from .takeoff import takeoff_rows
 
-    junctions = _junctions(runs, run_to, run_jch, lat_rows, car, car_jch, car_rows)
+    junctions = _junctions(runs, run_to, run_jch, lat_rows, r_to, order, car, inflow_order,
+                           car_jch, car_rows)
     takeoff = takeoff_rows(reaches, runs, car_rows, junctions, outlet_rows, options)
-    lat_area = sum(r["drained_area_ha"] for r in lat_rows)
+    lat_area_total = sum(r["drained_area_ha"] for r in lat_rows)
     totals = {
-        "drained_area_ha": lat_area,
+        "drained_area_ha": lat_area_total,
         "outlet_flow_l_s": sum(o["flow_l_s"] for o in outlet_rows),
         "outlets": len(outlet_rows),
         "lateral_length_m": sum(r["length_m"] for r in lat_rows),
@@ -540,19 +739,22 @@ def design_network(runs, carriers, options, *, surface=None, outlets=None):
     }
     if len(outlet_rows) > 1:
         notes.append(f"{len(outlet_rows)} separate outlets; the outlet flow is their sum")
-    path = _main_path(car, area_in)
+    path = _main_path(order, c_to, area_in)
     design = PipeDesign(reaches, violations, takeoff, profiles, notes, totals, outlet_rows,
                         group_problems(violations), path)
     if surface is not None and path:
         parts, offset = [], 0.0
         for k, cid in enumerate(path):
-            ch = car_s[cid][0]
+            p = pos_of[cid]
+            a, b = car_start[p], car_start[p] + car_n[p]
+            ch = car_ch[a:b]
             L = float(car[cid].line.length)
             if k:
-                offset += float(car[path[k - 1]].line.length) - car_jch[cid]
+                offset += float(car[path[k - 1]].line.length) - car_jch[p]
             # this carrier as far up as where the next one on the path joins it
-            keep = ch >= (car_jch[path[k + 1]] - 1e-9 if k + 1 < len(path) else -1.0)
-            parts.append((offset + L - ch[keep], ground_car[cid][keep], car_z[cid][keep]))
+            keep = ch >= (car_jch[pos_of[path[k + 1]]] - 1e-9 if k + 1 < len(path)
+                          else -1.0)
+            parts.append((offset + L - ch[keep], car_ground[a:b][keep], car_z[a:b][keep]))
         d = np.concatenate([p[0] for p in parts])
         o = np.argsort(d, kind="stable")
         profiles["outlet up"] = {"chainage": d[o],
@@ -562,145 +764,333 @@ def design_network(runs, carriers, options, *, surface=None, outlets=None):
     return design
 
 
-def _junctions(runs, run_to, run_jch, lat_rows, car, car_jch, car_rows):
+_ZERO = np.zeros(1)
+_NONE = np.full(1, -1, np.int64)
+
+
+def _cat(a, b):
+    """Two arrays one after the other (without a copy where one is empty)."""
+    return b if not a.size else a if not b.size else np.concatenate((a, b))
+
+
+def _level_reaches(la, lb, order, car, c_len, ev_own, ev_ref, ev_run, ev_jch,
+                   lat_area, lat_size, area_in, size_out, q, surface, options, prof):
+    """Reach rows of the carriers ``order[la:lb]`` (one tree level: all they receive is
+    sized already): each carrier split at its junctions, with the area and flow from
+    upstream, the inverts at both ends and the smallest size allowed (the largest it
+    receives upstream). Fills ``area_in`` and, for carriers of no length, ``size_out``.
+
+    Returns ``({carrier position: (first row, rows)}, rows)``."""
+    ea, eb = np.searchsorted(ev_own, [la, lb])
+    own, ref, isrun, jch = ev_own[ea:eb], ev_ref[ea:eb], ev_run[ea:eb], ev_jch[ea:eb]
+    areas = np.where(isrun, lat_area[np.where(isrun, ref, 0)] if len(lat_area) else 0.0,
+                     area_in[np.where(isrun, 0, ref)])
+    sizes = np.where(isrun, lat_size[np.where(isrun, ref, 0)] if len(lat_size) else -1,
+                     size_out[np.where(isrun, 0, ref)]).astype(np.int64)
+    nl = lb - la
+    owners = np.arange(la, lb)
+    L = c_len[la:lb]
+    ne = np.bincount(own - la, minlength=nl)
+    estart = np.concatenate(([0], np.cumsum(ne)[:-1])).astype(np.int64)
+    area_in[la:lb] = np.bincount(own - la, weights=areas, minlength=nl)
+    # cuts: ends and junction chainages (rounded to the micrometre), once each
+    vals = np.concatenate((np.zeros(nl), np.clip(jch, 0.0, L[own - la]), L)).round(6)
+    vown = np.concatenate((owners, own, owners))
+    o = np.lexsort((vals, vown))
+    vals, vown = vals[o], vown[o]
+    keep = np.concatenate(([True], (np.diff(vown) != 0) | (np.diff(vals) != 0)))
+    vals, vown = vals[keep], vown[keep]
+    new = np.concatenate(([True], vown[1:] != vown[:-1]))
+    end = np.concatenate((vown[1:] != vown[:-1], [True]))
+    vals[new] = 0.0
+    vals[end] = L[vown[end] - la]
+    lo, hi, iown = vals[:-1][~end[:-1]], vals[1:][~end[:-1]], vown[:-1][~end[:-1]]
+    ok = hi - lo >= 1e-6
+    lo, hi, iown = lo[ok], hi[ok], iown[ok]
+    has = np.zeros(nl, bool)
+    has[iown - la] = True
+    for k in np.flatnonzero(~has):               # no length: passes everything on
+        size_out[la + k] = int(sizes[estart[k]:estart[k] + ne[k]].max(initial=-1))
+    if not lo.size:
+        return {}, []
+    # what enters upstream of each reach's start: jch <= start + 1e-6 (events sorted
+    # by chainage within their carrier, ties in their given order)
+    so = np.lexsort((jch, own))
+    sj, sa, ss = jch[so], areas[so], sizes[so]
+    cum_area = np.empty(sa.size)
+    cnt = ne
+    for idx, width in _blocks(cnt):
+        if not width:
+            continue
+        blk, valid, pos = _padded(sa, estart, cnt, idx, width, 0.0)
+        cum_area[pos[valid]] = np.cumsum(blk, axis=1)[valid]
+    top = int(max(ss.max(initial=0), 0)) + 2
+    lift = (own - la).astype(np.int64) * top
+    cum_size = np.maximum.accumulate(ss + 1 + lift) - lift - 1 if ss.size else ss
+    qv = lo + 1e-6
+    allv = np.concatenate((sj, qv))
+    allo = np.concatenate((own, iown))
+    typ = np.concatenate((np.zeros(sj.size, np.int8), np.ones(qv.size, np.int8)))
+    o2 = np.lexsort((typ, allv, allo))
+    before = np.cumsum(o2 < sj.size)
+    where_q = np.empty(o2.size, np.int64)
+    where_q[o2] = np.arange(o2.size)
+    n_up = before[where_q[sj.size:]] - estart[iown - la]      # events upstream, per reach
+    last_ev = estart[iown - la] + n_up - 1
+    up_area = np.where(n_up > 0, cum_area[np.maximum(last_ev, 0)] if sa.size else 0.0, 0.0)
+    floor = np.where(n_up > 0, cum_size[np.maximum(last_ev, 0)] if ss.size else -1, -1)
+    flow = np.zeros(lo.size)
+    pos_area = up_area > 0
+    if np.any(pos_area):
+        flow[pos_area] = np.asarray(design_flow(q, up_area[pos_area]), float) * 1e3
+    if prof is not None:
+        ch, z, cst, cn = prof
+        s0 = cst[la]
+        s1 = cst[lb - 1] + cn[lb - 1]
+        zl = z[s0:s1]
+        inv = _interp_along(np.concatenate((iown, iown)) - la, np.concatenate((lo, hi)),
+                            np.stack([zl, zl], axis=1), cst[la:lb] - s0, cn[la:lb],
+                            ch[s0:s1])[:, 0]
+        iu, idn = inv[:lo.size], inv[lo.size:]
+    first = np.concatenate(([True], iown[1:] != iown[:-1]))
+    rank = np.arange(lo.size) - np.maximum.accumulate(np.where(first, np.arange(lo.size), 0))
+    n_rows = np.bincount(iown - la, minlength=nl)
+    rows, rows_of = [], {}
+    lo_l, hi_l, up_l, fl_l = lo.tolist(), hi.tolist(), up_area.tolist(), flow.tolist()
+    fo_l, own_l, rk_l = floor.tolist(), iown.tolist(), rank.tolist()
+    if prof is not None:
+        iu_l, id_l = iu.tolist(), idn.tolist()
+    for m in range(lo.size):
+        k = own_l[m]
+        cid = order[k]
+        c = car[cid]
+        Lk = float(L[k - la])
+        if rk_l[m] == 0:
+            rows_of[k] = (m, int(n_rows[k - la]))
+        aa, bb = lo_l[m], hi_l[m]
+        row = {"reach_id": f"{cid}{rk_l[m] + 1:02d}", "kind": c.kind,
+               "field_id": c.field_id, "carrier_id": cid,
+               "from": f"{aa:.1f} m", "to": f"{bb:.1f} m" if bb < Lk - 1e-6 else
+               (c.to or f"outlet {c.outlet}"), "length_m": bb - aa,
+               "drained_area_ha": up_l[m] / 1e4, "flow_l_s": fl_l[m],
+               "warnings": [], "chainage_m": [aa, bb], "_floor": fo_l[m], "_k": k}
+        if prof is None:
+            row.update(grade=options.assumed_grade, invert_up_m=None,
+                       invert_down_m=None, cover_min_m=None)
+        else:
+            row.update(grade=(iu_l[m] - id_l[m]) / (bb - aa), invert_up_m=iu_l[m],
+                       invert_down_m=id_l[m])
+        rows.append(row)
+    return rows_of, rows
+
+
+def _group(key, value, n):
+    """``value`` split by ``key`` into n arrays (the values' order kept)."""
+    key = np.asarray(key, np.int64)
+    value = np.asarray(value, np.int64)
+    o = np.argsort(key, kind="stable")
+    cuts = np.searchsorted(key[o], np.arange(n + 1))
+    v = value[o]
+    return [v[cuts[k]:cuts[k + 1]] for k in range(n)]
+
+
+def _junctions(runs, run_to, run_jch, lat_rows, r_to, order, car, inflow_order, car_jch,
+               car_rows):
     """Every junction: (field, joining size, receiving size, at the receiving pipe's
     upstream end)."""
+    bounds = {}
+
     def receiving(cid, ch):
+        """The receiving reach: the first whose chainages hold ``ch``, else the last."""
         rows = car_rows.get(cid)
         if not rows:
-            return None
-        for r in rows:
-            if r["chainage_m"][0] - 1e-6 <= ch <= r["chainage_m"][1] + 1e-6:
-                return r
-        return rows[-1]
+            return [None] * len(ch)
+        if cid not in bounds:
+            ab = np.array([r["chainage_m"] for r in rows], float)
+            bounds[cid] = ab
+        ab = bounds[cid]
+        j = np.searchsorted(ab[:, 1] + 1e-6, ch, side="left")
+        out = []
+        for x, jj in zip(ch, j):
+            if jj < len(rows) and ab[jj, 0] - 1e-6 <= x <= ab[jj, 1] + 1e-6:
+                out.append(rows[jj])
+            else:
+                # not in the first row that reaches that far: none holds it
+                hit = next((r for r in rows[jj:] if r["chainage_m"][0] - 1e-6 <= x <=
+                            r["chainage_m"][1] + 1e-6), None)
+                out.append(hit if hit is not None else rows[-1])
+        return out
 
+    rr_run = [None] * len(runs)
+    by = {}
+    for i, t in enumerate(run_to):
+        if t is not None:
+            by.setdefault(t, []).append(i)
+    for t, idx in by.items():
+        for i, rr in zip(idx, receiving(t, run_jch[idx])):
+            rr_run[i] = rr
     out = []
     for i, t in enumerate(run_to):
         if t is None:
             continue
-        rr = receiving(t, run_jch[i])
+        rr = rr_run[i]
         out.append((runs[i].field_id, lat_rows[i].get("size"), rr["size"] if rr else None,
                     bool(rr and run_jch[i] <= rr["chainage_m"][0] + 1e-6 and
                          rr["chainage_m"][0] < 1e-6)))
-    for cid, ch in car_jch.items():
+    for k in inflow_order:
+        cid = order[k]
+        ch = float(car_jch[k])
         rows = car_rows.get(cid)
-        rr = receiving(car[cid].to, ch)
+        rr = receiving(car[cid].to, [ch])[0]
         out.append((car[cid].field_id, rows[-1]["size"] if rows else None,
                     rr["size"] if rr else None,
                     bool(rr and ch < 1e-6 and rr["chainage_m"][0] < 1e-6)))
     return out
 
 
-def _outside_by_chainage(runs, order, car, by_carrier, run_jch, inflow_car, car_jch,
-                         series, options):
-    """Per carrier, a function chainage -> outside diameter [m] of the size its flow needs
-    at the minimum grade (the largest size where none is enough)."""
-    total = {}
-    out = {}
-    areas_lat = np.array([r.perforated_length * r.spacing for r in runs])
-    for cid in order:
-        jch = [run_jch[i] for i in by_carrier.get(cid, [])] + \
-            [car_jch[k] for k in inflow_car.get(cid, [])]
-        ar = [areas_lat[i] for i in by_carrier.get(cid, [])] + \
-            [total[k] for k in inflow_car.get(cid, [])]
-        total[cid] = float(np.sum(ar)) if ar else 0.0
-        jch, ar = np.asarray(jch, float), np.asarray(ar, float)
+def _outside_by_chainage(order, runs_into, cars_into, run_jch, car_jch, areas_lat, series,
+                         options):
+    """Per carrier, the junction chainages (sorted) and the outside diameter [m] from each
+    on of the size its flow needs at the minimum grade (the largest size where none is
+    enough); one size selection for all junctions."""
+    nc = len(order)
+    total = np.zeros(nc)
+    jchs, cums = [], []
+    for k in range(nc):
+        ri, ci = runs_into[k], cars_into[k]
+        jch = _cat(run_jch[ri], car_jch[ci])
+        ar = _cat(areas_lat[ri], total[ci])
+        total[k] = float(np.sum(ar)) if ar.size else 0.0
         o = np.argsort(jch)
-        jch, cum = jch[o], np.cumsum(ar[o])
-        if jch.size:
-            flow = design_flow(options.coefficient, np.maximum(cum, 1e-9))
-            idx, _ = select_size(np.atleast_1d(flow), np.full(jch.size, options.min_grade),
-                                 series, method=options.method,
-                                 capacity_factor=options.capacity_factor)
-            idx = np.where(np.atleast_1d(idx) < 0, len(series.nominal) - 1, idx)
-            od = series.inner_diameter[idx] * (1.15 if series.material == "corrugated"
-                                               else 1.1)
-        else:
-            od = np.zeros(0)
-
-        def f(ch, jch=jch, od=od):
-            k = np.searchsorted(jch, np.asarray(ch) + 1e-6, side="right") - 1
-            return np.where(k >= 0, od[np.maximum(k, 0)] if od.size else 0.0, 0.0)
-
-        out[cid] = f
-    return out
+        jchs.append(jch[o])
+        cums.append(np.cumsum(ar[o]))
+    counts = np.array([len(j) for j in jchs], np.int64)
+    cum = np.concatenate(cums) if nc else np.zeros(0)
+    od = np.zeros(0)
+    if cum.size:
+        flow = design_flow(options.coefficient, np.maximum(cum, 1e-9))
+        idx, _ = select_size(np.atleast_1d(flow), np.full(cum.size, options.min_grade),
+                             series, method=options.method,
+                             capacity_factor=options.capacity_factor)
+        idx = np.where(np.atleast_1d(idx) < 0, len(series.nominal) - 1, idx)
+        od = series.inner_diameter[idx] * (1.15 if series.material == "corrugated" else 1.1)
+    starts = np.r_[0, np.cumsum(counts)]
+    return jchs, [od[starts[k]:starts[k + 1]] for k in range(nc)]
 
 
-def _main_path(car, area_in):
+def _main_path(order, c_to, area_in):
     """Carrier ids from the outlet up along the largest flow (trunk, then main...)."""
-    roots = [c for c in car if car[c].to is None]
+    roots = [k for k in range(len(order)) if c_to[k] < 0]
     if not roots:
         return []
-    node = max(roots, key=lambda c: area_in.get(c, 0.0))
-    path = [node]
+    ups = {}
+    for k in range(len(order)):                   # in the carriers' order
+        if c_to[k] >= 0:
+            ups.setdefault(int(c_to[k]), []).append(k)
+    node = max(roots, key=lambda k: area_in[k])
+    path = [order[node]]
     while True:
-        ups = [c for c in car if car[c].to == node]
-        if not ups:
+        u = ups.get(node)
+        if not u:
             return path
-        node = max(ups, key=lambda c: area_in.get(c, 0.0))
-        path.append(node)
+        node = max(u, key=lambda k: area_in[k])
+        path.append(order[node])
 
 
-def _profile_checks(row, ch, xy, ground, z, series, options, violations, kind):
-    """Depth, cover and grade of one pipe against the limits: one problem per pipe."""
-    if len(ch) < 2:
+def _profile_checks(rows, lo, hi, ch, xy, ground, z, series, options, violations):
+    """Depth, cover and grade of many pipes against the limits: one problem per pipe.
+
+    Row i covers the samples ``lo[i]:hi[i]``; rows with fewer than 2 samples are not
+    checked. The tests run on all samples at once; the place of a problem (the
+    deepest point, the least cover, the steepest stretch) is looked up only in the
+    pipes that have one."""
+    lo, hi = np.asarray(lo, np.int64), np.asarray(hi, np.int64)
+    sel = np.flatnonzero(hi - lo >= 2)
+    if not sel.size:
         return
-    depth = ground - z
-    od = _outside(row, series)
-    cover = depth - od
-    row["cover_min_m"] = float(cover.min())
-    rid = row["reach_id"]
-    deep = depth > options.max_depth + 1e-9
-    if np.any(deep):
-        k = int(np.argmax(depth))
-        violations.append(_violation(
-            "too deep", rid, ch[k], xy[k],
-            f"{depth[k]:.2f} m deep, more than the maximum {options.max_depth:.2f} m",
-            "lay a sub-main or second outlet closer to this part, accept a deeper trench, "
-            "or reduce the minimum grade", ))
-        violations[-1]["summary"] = f"deeper than the maximum depth {options.max_depth:.2f} m"
-        row["warnings"].append("deeper than the maximum depth")
-    if row["cover_min_m"] < options.min_cover - 1e-9:
-        k = int(np.argmin(cover))
-        violations.append(_violation(
-            "shallow cover", rid, ch[k], xy[k],
-            f"cover {cover[k]:.2f} m is less than {options.min_cover:.2f} m",
-            "the outlet or a joining pipe holds it up: lower the outlet, or protect the pipe "
-            "(rigid pipe, no heavy traffic)"))
-        violations[-1]["summary"] = f"cover less than {options.min_cover:.2f} m"
-        row["warnings"].append("shallow cover")
-    dch = np.diff(ch)
-    seg = np.where(dch > 0.5, -np.diff(z) / np.maximum(dch, 1e-9), 0.0)
-    if np.any(seg > options.max_grade + 1e-9):
-        k = int(np.argmax(seg))
-        violations.append(_violation(
-            "steep", rid, ch[k], xy[k],
-            f"grade {seg[k]:.2%} exceeds the maximum {options.max_grade:.2%}",
-            "put a drop structure here, or lay the pipe deeper upstream"))
-        violations[-1]["summary"] = f"grade above the maximum {options.max_grade:.2%}"
-        row["warnings"].append("steeper than the maximum grade")
+    cnt = hi[sel] - lo[sel]
+    seg0 = np.concatenate(([0], np.cumsum(cnt)[:-1]))
+    if lo[sel[0]] == 0 and np.array_equal(lo[sel[1:]], hi[sel[:-1]]) and \
+            hi[sel[-1]] == len(ch):
+        take = None                               # the rows cover the samples in order
+        c, g, zz = ch, ground, z
+    else:
+        take = _ranges(lo[sel], hi[sel])
+        c, g, zz = ch[take], ground[take], z[take]
+    depth = g - zz
+    inner = np.array([(rows[i].get("inner_diameter_mm") or 100.0) for i in sel], float)
+    od = np.asarray(outside_diameter(inner / 1000.0, series.material), float)
+    cover = depth - np.repeat(od, cnt)
+    cmin = np.minimum.reduceat(cover, seg0)
+    deep_any = np.logical_or.reduceat(depth > options.max_depth + 1e-9, seg0)
+    # grades between consecutive samples; the pair across two pipes counts as flat
+    dch = np.diff(c)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        seg = np.where(dch > 0.5, -np.diff(zz) / np.maximum(dch, 1e-9), 0.0)
+    steep = np.concatenate((seg > options.max_grade + 1e-9, [False]))
+    steep[seg0[1:] - 1] = False
+    steep_any = np.logical_or.reduceat(steep, seg0)
+    low_cover = cmin < options.min_cover - 1e-9
+    cmin_l = cmin.tolist()
+    for m, i in enumerate(sel.tolist()):
+        rows[i]["cover_min_m"] = cmin_l[m]
+    for m in np.flatnonzero(deep_any | low_cover | steep_any).tolist():
+        row = rows[sel[m]]
+        rid = row["reach_id"]
+        a, b = int(seg0[m]), int(seg0[m] + cnt[m])
+        pt = (lambda k: xy[k + a] if take is None else xy[take[k + a]])
+        cc = c[a:b]
+        if deep_any[m]:
+            k = int(np.argmax(depth[a:b]))
+            violations.append(_violation(
+                "too deep", rid, cc[k], pt(k),
+                f"{depth[a + k]:.2f} m deep, more than the maximum {options.max_depth:.2f} m",
+                "lay a sub-main or second outlet closer to this part, accept a deeper "
+                "trench, or reduce the minimum grade", ))
+            violations[-1]["summary"] = (f"deeper than the maximum depth "
+                                         f"{options.max_depth:.2f} m")
+            row["warnings"].append("deeper than the maximum depth")
+        if low_cover[m]:
+            k = int(np.argmin(cover[a:b]))
+            violations.append(_violation(
+                "shallow cover", rid, cc[k], pt(k),
+                f"cover {cover[a + k]:.2f} m is less than {options.min_cover:.2f} m",
+                "the outlet or a joining pipe holds it up: lower the outlet, or protect the "
+                "pipe (rigid pipe, no heavy traffic)"))
+            violations[-1]["summary"] = f"cover less than {options.min_cover:.2f} m"
+            row["warnings"].append("shallow cover")
+        if steep_any[m]:
+            k = int(np.argmax(seg[a:b - 1]))
+            violations.append(_violation(
+                "steep", rid, cc[k], pt(k),
+                f"grade {seg[a + k]:.2%} exceeds the maximum {options.max_grade:.2%}",
+                "put a drop structure here, or lay the pipe deeper upstream"))
+            violations[-1]["summary"] = f"grade above the maximum {options.max_grade:.2%}"
+            row["warnings"].append("steeper than the maximum grade")
 
 
-def _high_side(runs, lat_s, ground_lat, violations):
+def _high_side(runs, ground, start, last, length, violations):
     """Fields whose laterals mostly rise towards their main: the main is on the high
     side. One problem per field."""
-    by_field = {}
-    for i, r in enumerate(runs):
-        g = ground_lat[i]
-        if g is None or len(g) < 2:
-            continue
-        L = max(float(r.line.length), 1e-9)
-        by_field.setdefault(r.field_id, []).append((g[-1] - g[0]) / L)
-    for fid, rises in by_field.items():
-        rises = np.asarray(rises)
-        if np.mean(rises > 5e-4) > 0.5:
-            violations.append(_violation(
-                "main on the high side", f"{fid}-M", 0.0, None,
-                f"the ground rises {np.median(rises):.2%} along most laterals of field "
-                f"{fid} towards its main: the main is on the high side",
-                "re-run the layout with the survey (--survey) so the main goes on the low "
-                "side, or choose it with --main-side"))
-            violations[-1]["summary"] = "main on the high side of its field"
+    if not len(runs) or ground is None:
+        return
+    rise = (ground[last] - ground[start]) / np.maximum(length, 1e-9)
+    fid = [r.field_id for r in runs]
+    first, inv = {}, np.empty(len(runs), np.int64)
+    for i, f in enumerate(fid):
+        inv[i] = first.setdefault(f, len(first))
+    n = np.bincount(inv, minlength=len(first))
+    up = np.bincount(inv, weights=(rise > 5e-4), minlength=len(first))
+    names = list(first)
+    for g in np.flatnonzero(up / n > 0.5):
+        f = names[g]
+        violations.append(_violation(
+            "main on the high side", f"{f}-M", 0.0, None,
+            f"the ground rises {np.median(rise[inv == g]):.2%} along most laterals of field "
+            f"{f} towards its main: the main is on the high side",
+            "re-run the layout with the survey (--survey) so the main goes on the low "
+            "side, or choose it with --main-side"))
+        violations[-1]["summary"] = "main on the high side of its field"
 
 
 def design_pipes(runs, mains, options, *, surface=None, receiving_outlet=None):
@@ -728,8 +1118,11 @@ def _size_index(row, series):
 
 
 def _size_rows(rows, series, options, violations, *, uniform_inflow, taper=False,
-               min_index=None):
-    """Smallest adequate size of each row; beyond the table: marked with the fix."""
+               min_index=None, groups=None):
+    """Smallest adequate size of each row; beyond the table: marked with the fix.
+
+    With ``taper`` the rows are the reaches of carriers, upstream first; ``groups``
+    (non-decreasing, one value per carrier) keeps each carrier's taper to itself."""
     if not rows:
         return
     flow = np.array([r["flow_l_s"] / 1000.0 for r in rows])
@@ -742,7 +1135,15 @@ def _size_rows(rows, series, options, violations, *, uniform_inflow, taper=False
         # never a smaller pipe downstream, nor smaller than a pipe it receives
         if min_index is not None:
             idx = np.where(idx < 0, idx, np.maximum(idx, min_index))
-        run_max = np.maximum.accumulate(np.where(idx < 0, top, idx))
+        capped = np.where(idx < 0, top, idx)
+        if groups is not None and len(groups):
+            # a running maximum per carrier: each carrier's values lifted above all
+            # earlier carriers' (exact in integers)
+            g = np.cumsum(np.r_[0, np.diff(np.asarray(groups)) != 0]).astype(np.int64)
+            lift = g * (top + 1)
+            run_max = np.maximum.accumulate(capped + lift) - lift
+        else:
+            run_max = np.maximum.accumulate(capped)
         idx = np.where(run_max >= top, -1, run_max)
         d = series.inner_diameter[np.maximum(idx, 0)]
         cap = np.where(idx >= 0, _capacity(d, grade, series, options, uniform_inflow), np.nan)
@@ -750,16 +1151,24 @@ def _size_rows(rows, series, options, violations, *, uniform_inflow, taper=False
     ok = idx >= 0
     d_all = series.inner_diameter[np.maximum(idx, 0)]
     full_all = _capacity(d_all, grade, series, options, False) / options.capacity_factor
-    n_all = (np.atleast_1d(manning_n(series.material, d_all)) if options.method == "manning"
-             else None)
     wall = "smooth" if series.material in ("smooth", "clay") else "corrugated"
     outside = power_law_outside(d_all, wall) if options.method != "manning" else \
         np.zeros(len(rows), bool)
     big_full = None
-    for k, (r, i, c, s) in enumerate(zip(rows, idx, cap, grade)):
+    # per size: inside diameter [mm] and Manning's n as shown (rounded once per size)
+    inner_mm = [round(float(d) * 1000.0, 1) for d in series.inner_diameter]
+    n_size = ([round(float(v), 5) for v in np.atleast_1d(
+        manning_n(series.material, series.inner_diameter))]
+        if options.method == "manning" else None)
+    usable = round(100.0 * options.capacity_factor, 1)
+    cap_l = (np.asarray(cap, float) * 1000.0).tolist()
+    vel = (full_all / (np.pi * d_all * d_all / 4.0)).tolist()
+    idx_l, ok_l = np.asarray(idx).tolist(), ok.tolist()
+    for k, r in enumerate(rows):
+        i, s = idx_l[k], grade[k]
         r["material"] = series.material
-        r["usable_capacity_pct"] = round(100.0 * options.capacity_factor, 1)
-        if not ok[k]:
+        r["usable_capacity_pct"] = usable
+        if not ok_l[k]:
             biggest = series.nominal[-1]
             if big_full is None:
                 big_full = _capacity(np.full(len(rows), series.inner_diameter[-1]), grade,
@@ -777,20 +1186,20 @@ def _size_rows(rows, series, options, violations, *, uniform_inflow, taper=False
                 "split the area to a second outlet"))
             violations[-1]["summary"] = f"flow beyond the largest pipe ({biggest})"
             continue
-        d = float(d_all[k])
+        c = cap_l[k]
         r["size"] = series.nominal[i]
-        r["inner_diameter_mm"] = round(d * 1000.0, 1)
-        r["capacity_l_s"] = float(c) * 1000.0
-        r["capacity_used_pct"] = 100.0 * r["flow_l_s"] / (float(c) * 1000.0) if c > 0 else None
-        r["velocity_m_s"] = float(full_all[k] / (np.pi * d * d / 4.0))
-        if n_all is not None:
-            r["manning_n"] = round(float(n_all[k]), 5)
+        r["inner_diameter_mm"] = inner_mm[i]
+        r["capacity_l_s"] = c
+        r["capacity_used_pct"] = 100.0 * r["flow_l_s"] / c if c > 0 else None
+        r["velocity_m_s"] = vel[k]
+        if n_size is not None:
+            r["manning_n"] = n_size[i]
         elif outside[k]:
             lo, hi = POWER_LAW_RANGE[wall]
             r["warnings"].append("power law outside its diameter range")
             violations.append(_violation(
                 "power law range", r["reach_id"], 0.0, r.get("_start"),
-                f"{r['size']} ({d * 1000:.0f} mm inside) lies outside the "
+                f"{r['size']} ({float(d_all[k]) * 1000:.0f} mm inside) lies outside the "
                 f"{lo * 1000:.0f}-{hi * 1000:.0f} mm the drain-pipe power law was "
                 "fitted to; its capacity may be overstated",
                 "check these reaches with --capacity-method manning"))

@@ -86,31 +86,80 @@ class _Visibility:
         ok = shapely.covered_by(seg, self.cover) if i.size else np.zeros(0, bool)
         self.i, self.j = i[ok], j[ok]
         self.w = np.hypot(*(self.xy[self.i] - self.xy[self.j]).T)
+        self._index()
+
+    def _index(self):
+        """The corner links in both directions, placed for :meth:`_graph`.
+
+        The links in both directions as compressed rows, for a directed search that
+        scans each node's links in the order the undirected search scans them: its
+        links to later nodes (as triu_indices gives them), then those from earlier
+        nodes (the start, node 0, first; then corners in ascending order)."""
+        n = len(self.xy)
+        ii, jj = self.i + 1, self.j + 1
+        self._fwd = np.bincount(ii, minlength=n + 1)            # per row
+        self._rev = np.bincount(jj, minlength=n + 1)
+        o = np.lexsort((ii, jj))                               # reverse links by row
+        self._row = np.concatenate((ii, jj[o]))
+        self._col = np.concatenate((jj, ii[o]))
+        self._w = np.concatenate((self.w, self.w[o]))
+        self._is_rev = np.concatenate((np.zeros(len(ii), bool), np.ones(len(ii), bool)))
+        first = np.concatenate(([0], np.cumsum(self._fwd)[:-1]))
+        rfirst = np.concatenate(([0], np.cumsum(self._rev)[:-1]))
+        self._off = np.concatenate((np.arange(len(ii)) - first[ii],
+                                    np.arange(len(ii)) - rfirst[jj[o]]))
+
+    def _graph(self, cols0, w0):
+        """The search graph with the start (node 0) linked to the corners ``cols0``
+        (ascending) at weights ``w0``: compressed rows, row 0 the start's links; row u
+        its links to later corners, the start's link to it, links from earlier corners
+        (the undirected search's scanning order, so the same paths on ties)."""
+        from scipy.sparse import csr_matrix
+
+        n = len(self.xy)
+        s = np.zeros(n + 1, np.int64)
+        s[cols0 + 1] = 1
+        count = self._fwd + s + self._rev
+        count[0] = len(cols0)
+        indptr = np.concatenate(([0], np.cumsum(count)))
+        indices = np.empty(indptr[-1], np.int64)
+        data = np.empty(indptr[-1])
+        at = indptr[self._row] + self._off + np.where(self._is_rev, self._fwd[self._row] +
+                                                      s[self._row], 0)
+        indices[at] = self._col
+        data[at] = np.maximum(self._w, 1e-9)
+        indices[:len(cols0)] = cols0 + 1
+        data[:len(cols0)] = w0
+        back = indptr[cols0 + 1] + self._fwd[cols0 + 1]
+        indices[back] = 0
+        data[back] = w0
+        return csr_matrix((data, indices, indptr), shape=(n + 1, n + 1))
 
     def path(self, start, targets):
         """Shortest path from ``start`` (x, y) to the nearest visible point of
         ``targets`` (a line geometry) inside the area; LineString or None."""
         import shapely
-        from scipy.sparse import coo_matrix
         from scipy.sparse.csgraph import dijkstra
 
         start = np.asarray(start, float)
         n = len(self.xy)
         nodes = np.vstack([start[None, :], self.xy])          # node 0 is the start
-        to_node = shapely.linestrings(np.stack([np.broadcast_to(start, self.xy.shape),
-                                                self.xy], axis=1)) if n else \
-            np.empty(0, dtype=object)
-        sees = shapely.covered_by(to_node, self.cover) if n else np.zeros(0, bool)
-        # each node's nearest point of the targets, if in sight
         pts = shapely.points(nodes)
+        # sight lines to every corner and each node's nearest point of the targets,
+        # checked against the area in one call
         links = shapely.shortest_line(pts, targets)
-        reach = shapely.covered_by(links, self.cover)
+        if n:
+            to_node = shapely.linestrings(np.stack([np.broadcast_to(start, self.xy.shape),
+                                                    self.xy], axis=1))
+            inside = shapely.covered_by(np.concatenate((to_node, links)), self.cover)
+            sees, reach = inside[:n], inside[n:]
+        else:
+            sees, reach = np.zeros(0, bool), shapely.covered_by(links, self.cover)
         cost_t = np.where(reach, shapely.length(links), np.inf)
-        rows = np.r_[np.zeros(int(sees.sum()), int), self.i + 1]
-        cols = np.r_[np.flatnonzero(sees) + 1, self.j + 1]
-        w = np.r_[np.hypot(*(self.xy[sees] - start).T), self.w]
-        g = coo_matrix((np.maximum(w, 1e-9), (rows, cols)), shape=(n + 1, n + 1)).tocsr()
-        dist, pred = dijkstra(g, directed=False, indices=0, return_predecessors=True)
+        cols0 = np.flatnonzero(sees)
+        w0 = np.maximum(np.hypot(*(self.xy[cols0] - start).T), 1e-9)
+        g = self._graph(cols0, w0)
+        dist, pred = dijkstra(g, directed=True, indices=0, return_predecessors=True)
         total = dist + cost_t
         k = int(np.argmin(total))
         if not np.isfinite(total[k]):
@@ -122,7 +171,7 @@ class _Visibility:
         end = np.asarray(links[k].coords)[-1]
         coords.append(end)
         coords = np.array(coords)
-        keep = np.r_[True, np.hypot(*np.diff(coords, axis=0).T) > _TOL]
+        keep = np.concatenate(([True], np.hypot(*np.diff(coords, axis=0).T) > _TOL))
         coords = coords[keep]
         if len(coords) < 2:
             return shapely.LineString([start, end]) if np.hypot(*(end - start)) > 0 else None
@@ -293,6 +342,7 @@ def route_trunk(fields, main_ends, outlets, exclusions=None, *, mains=None, k_li
     # nodes: outlets, system ends, the fields' boundary corners, the mains' vertices
     ring_xy, ring_f, ring_edges = [], [], []
     base = n_o + n_f
+    n_ring = 0                                       # corners so far
     for f in range(n_f):
         g = fields[f]
         if g is None:
@@ -300,7 +350,8 @@ def route_trunk(fields, main_ends, outlets, exclusions=None, *, mains=None, k_li
         g = shapely.simplify(g, 0.5, preserve_topology=True)
         for r in shapely.get_rings(shapely.get_parts(g)):
             c = np.asarray(r.coords)[:-1]
-            k0 = base + sum(len(x) for x in ring_xy)
+            k0 = base + n_ring
+            n_ring += len(c)
             ring_xy.append(c)
             ring_f.append(np.full(len(c), f))
             ids = k0 + np.arange(len(c))
@@ -311,13 +362,15 @@ def route_trunk(fields, main_ends, outlets, exclusions=None, *, mains=None, k_li
     m_xy, m_f, m_edges, main_in = [], [], [], []     # main_in: corner -> main vertex
     tree = cKDTree(corners)
     k = min(k_links, len(corners))
+    n_mv = 0                                         # main vertices so far
     if mains is not None:
         for f in have:
             m = mains[f]
             if m is None:
                 continue
             c = np.asarray(m.coords)
-            k0 = mbase + sum(len(x) for x in m_xy)
+            k0 = mbase + n_mv
+            n_mv += len(c)
             m_xy.append(c)
             m_f.append(np.full(len(c), f))
             ids = k0 + np.arange(len(c))
@@ -367,16 +420,24 @@ def route_trunk(fields, main_ends, outlets, exclusions=None, *, mains=None, k_li
     if exclusions is not None and not shapely.is_empty(exclusions):
         ok &= ~shapely.intersects(seg, exclusions)
     # stretches through a field's interior cost more than along its edges; following
-    # an existing main costs half (the main is there and is only enlarged)
+    # an existing main costs half (the main is there and is only enlarged). A link and
+    # its reverse (the first 2 x len(both) links) share one computation; links along a
+    # main need none.
+    is_main_edge = along_main & (node_f[e[:, 0]] == node_f[e[:, 1]]) & (e[:, 0] >= mbase)
     interiors = np.array([shapely.buffer(g, -2.0) if g is not None else shapely.Polygon()
                           for g in fields], dtype=object)
     itree = shapely.STRtree(interiors)
-    pairs = itree.query(seg, predicate="intersects")
-    inside = np.zeros(len(e))
+    nb = len(both)
+    once = np.r_[np.arange(nb), np.arange(2 * nb, len(e))]
+    once = once[~is_main_edge[once]]
+    pairs = itree.query(seg[once], predicate="intersects")
+    inside_once = np.zeros(len(once))
     if pairs.size:
-        np.add.at(inside, pairs[0], shapely.length(shapely.intersection(
-            seg[pairs[0]], interiors[pairs[1]])))
-    is_main_edge = along_main & (node_f[e[:, 0]] == node_f[e[:, 1]]) & (e[:, 0] >= mbase)
+        np.add.at(inside_once, pairs[0], shapely.length(shapely.intersection(
+            seg[once[pairs[0]]], interiors[pairs[1]])))
+    inside = np.zeros(len(e))
+    inside[once] = inside_once
+    inside[nb:2 * nb] = inside[:nb]
     w = np.where(is_main_edge, 0.5 * length, length + (_INTERIOR_COST - 1.0) * inside)
     w = np.maximum(w, 1e-9)
     e, w = e[ok], w[ok]

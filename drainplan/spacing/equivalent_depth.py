@@ -282,48 +282,37 @@ _CASES_PER_BLOCK = 16384
 # The kernels below work in place where they can: every new temporary of a
 # block costs an allocation, and on the test machine fresh memory is slow.
 
-def _w_small(L, inv_d, gamma, terms):
+def _w_small(L, inv_d, gamma):
     """W, W', W'' for x <= switch: W = ln(D/(pi r0)) + pi L/(8 D) + R, R = -2 sum e_m t^m,
-    t = exp(-pi L/(2 D)) (W'' keeps the first term of R only)."""
+    t = exp(-pi L/(2 D)), nine terms (W'' keeps the first term of R only)."""
     s = L * inv_d
     t = np.multiply(s, -0.5 * _PI)
     np.exp(t, out=t)
     w = np.multiply(s, 0.125 * _PI, out=s)
     w += gamma
-    if terms > 2:
-        r = _horner(t, _E[:terms])
-        r *= 2.0
-        w -= r
-        w1 = _horner(t, _E1)
-        w1 *= _PI
-    else:
-        w -= 2.0 * t
-        w += t * t
-        w1 = np.multiply(t, _PI)
+    r = _horner(t, _E[:9])
+    r *= 2.0
+    w -= r
+    w1 = _horner(t, _E1)
+    w1 *= _PI
     w1 += 0.125 * _PI
     w1 *= inv_d
     w2 = np.multiply(t, (-0.5 * _PI * _PI) * inv_d * inv_d, out=t)
     return w, w1, w2
 
 
-def _w_large(L, two_pi_d, ln_pr, terms):
-    """W, W', W'' for x > switch: W = ln(L/(pi r0)) + 4 sum c_m t^m, t = exp(-2x)
-    (W'' with three terms of the series)."""
+def _w_large(L, two_pi_d, ln_pr):
+    """W, W', W'' for x > switch: W = ln(L/(pi r0)) + 4 sum c_m t^m, t = exp(-2x), nine
+    terms (W'' with three terms of the series)."""
     inv_l = np.divide(1.0, L)
     x = np.multiply(two_pi_d, inv_l)
     t = np.multiply(x, -2.0)
     np.exp(t, out=t)
     w = np.log(L)
     w -= ln_pr
-    if terms > 2:
-        f = _horner(t, _C[:terms])
-        xq = _horner(t, _C1)
-        q2 = _horner(t, _C2)
-    else:
-        f = 1.0 + t
-        f *= t
-        xq = t.copy()
-        q2 = t
+    f = _horner(t, _C[:9])
+    xq = _horner(t, _C1)
+    q2 = _horner(t, _C2)
     f *= 4.0
     w += f
     xq *= x
@@ -528,7 +517,7 @@ def _solve_block(A, B, D, r0, lo, hi, method, cap, kirkham, xtol):
             L, good = _two_halley_steps(branch, x, Ab, Bb, p, q, k2, xtol)
         else:
             wargs = _w_args(branch, method, kirkham, Db, r0[idx], gamma[idx])
-            func = _w_func(branch, method, kirkham, 9)
+            func = _w_func(branch, method, kirkham)
             L, good, _ = newton_block(lambda L, A, B, *wa: _g(func, L, A, B, wa), x, None,
                                       None, (Ab, Bb, *wargs), xtol=xtol, rtol=0.0,
                                       maxiter=8)
@@ -675,7 +664,7 @@ def _two_halley_steps(small, x, A, B, p, q, k2, xtol):
     stop |= a <= xtol
     rest = np.flatnonzero(~stop)
     if rest.size:
-        func = _w_func(small, "series", False, 9)
+        func = _w_func(small, "series", False)
         L, good, _ = newton_block(lambda L, A, B, *wa: _g(func, L, A, B, wa), x[rest], None,
                                   None, (A[rest], B[rest], p[rest], q[rest], 0.0, 0.0),
                                   xtol=xtol, rtol=0.0, maxiter=7, prev=a[rest])
@@ -723,16 +712,18 @@ def _w_args(small, method, kirkham, D, r0, gamma):
     return (2.0 * _PI * D, np.log(_PI * r0), *extra)
 
 
-def _w_func(small, method, kirkham, terms):
+def _w_func(small, method, kirkham):
     """W(L, *args) -> (W, W', W'') for one branch of one method."""
     if method == "moody":
         if small:                    # D/L <= 0.3: W = (pi/8)(L/D + (8/pi) ln(D/r0) - alpha)
             def wfun(L, inv_d, c):
                 inv_s = 1.0 / (L * inv_d)
+                inv_s2 = inv_s * inv_s
+                inv_s3 = inv_s2 * inv_s
                 k = 0.125 * _PI
-                w = k * (L * inv_d + c + 1.6 * inv_s - 2.0 * inv_s * inv_s)
-                w1 = k * inv_d * (1.0 - 1.6 * inv_s * inv_s + 4.0 * inv_s ** 3)
-                w2 = k * inv_d * inv_d * (3.2 * inv_s ** 3 - 12.0 * inv_s ** 4)
+                w = k * (L * inv_d + c + 1.6 * inv_s - 2.0 * inv_s2)
+                w1 = k * inv_d * (1.0 - 1.6 * inv_s2 + 4.0 * inv_s3)
+                w2 = k * inv_d * inv_d * (3.2 * inv_s3 - 12.0 * (inv_s2 * inv_s2))
                 return w, w1, w2
         else:                        # D/L > 0.3: W = ln(L/r0) - 1.15
             def wfun(L, ln_r):
@@ -741,14 +732,14 @@ def _w_func(small, method, kirkham, terms):
         return wfun
     if small:
         def wfun(L, inv_d, gamma, D, r0):
-            w, w1, w2 = _w_small(L, inv_d, gamma, terms)
+            w, w1, w2 = _w_small(L, inv_d, gamma)
             if kirkham:           # Newton: W' in closed form, W'' not needed
                 e2, e2s, _ = _kirkham_e2_small(L, D, r0)
                 return w - e2, w1 - e2s
             return w, w1, w2
     else:
         def wfun(L, two_pi_d, ln_pr, D, r0):
-            w, w1, w2 = _w_large(L, two_pi_d, ln_pr, terms)
+            w, w1, w2 = _w_large(L, two_pi_d, ln_pr)
             if kirkham:
                 e2, e2s, _ = _kirkham_e2_large(L, D, r0)
                 return w - e2, w1 - e2s

@@ -83,10 +83,11 @@ def hooghoudt_spacing(*, recharge, head, k_below, depth_to_barrier, drain_radius
     (d = D): writing d = pi L / (8 W) with W = ln(L / (pi r0)) + F, the
     equation is ``W (L - B/L) = A`` with A = pi K2 h / q and B = 4 K1 h^2 / q,
     which two Halley steps solve from a closed-form estimate (deep-barrier and
-    shallow-barrier limits of d), with W and its derivatives from the series of
-    :func:`~drainplan.spacing.equivalent_depth.molen_wesseling_f`
-    (:func:`drainplan._solve.newton_root`; cases it cannot finish go to the
-    bracketed solver). With D = 0 it reduces to the Donnan (Colding) form
+    shallow-barrier limits of d), the first with two terms of the series of
+    :func:`~drainplan.spacing.equivalent_depth.molen_wesseling_f`, the second
+    with all of them, and the stop rule of :func:`drainplan._solve.newton_block`
+    (further steps for the rare case it does not end; cases Halley cannot
+    finish go to the bracketed solver). With D = 0 it reduces to the Donnan (Colding) form
     ``q L^2 = 4 K h^2``. Assumptions: two-dimensional steady flow to
     parallel drains; soil layers homogeneous with their interface at drain
     level; the barrier horizontal; radial flow near the drain folded into d.

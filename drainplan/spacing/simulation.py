@@ -429,6 +429,7 @@ class _Boussinesq:
         from scipy.linalg import lapack
 
         self.gtsv = lapack.dgtsv
+        self.ptsv = lapack.dptsv     # symmetric positive definite (the fast path's matrix)
         n = c["L"].size
         self.n, self.M, self.dt = n, M, dt
         half = c["L"] / 2.0
@@ -467,88 +468,139 @@ class _Boussinesq:
             return self.mu[:, None] * h
         return self.v_top[:, None] - self._vz(self.zd[:, None] - h)
 
+    #: Weather steps per block of the record: the states of a block are kept and its
+    #: fluxes, ET and storage computed afterwards in a few array operations.
+    BLOCK = 256
+
     def run(self, h, rain_rate, pet_rate, substeps, h_surf):
         T = rain_rate.size
         n, M, dt = self.n, self.M, self.dt
         w, w0, dx, half = self.w, self.w0, self.dx, self.half
         hs = h_surf[:, None]
         self.hs = hs
+        S = substeps
         h_mid = np.empty((n, T))
-        drain = np.zeros((n, T))
+        drain = np.empty((n, T))
         runoff = np.zeros((n, T))
-        et = np.zeros((n, T))
+        et = np.empty((n, T))
         storage = np.empty((n, T + 1))
         storage[:, 0] = (self.storage_of(h) * w).sum(axis=1) / half
+        # rain after ET met from the day's rain, and the PET left for the water table
+        direct = np.minimum(rain_rate, pet_rate)
+        r_all, p_all = rain_rate - direct, pet_rate - direct
+        et[:] = direct * (dt * S)
+        drain[:] = (dt * w0 / half)[:, None] * (r_all * S)      # rain on the drain's half cell
         # fast path (constant mu, no bound reached): a handful of array operations per step
         fast = self.prof is None
-        hb = np.zeros((n, M + 1))                 # column 0: the drain node (h = 0)
-        hb[:, 1:] = h
-        cl = np.zeros((n, M + 1))                 # dt/dx x face transmissivity, j-1/2
         cdt = (dt / dx)[:, None]
-        a0 = cdt * self.kbd[:, None]
-        a1 = cdt * 0.5 * self.ka[:, None]
+        a0 = cdt * self.kbd[:, None]              # dt/dx x K2 d
+        a1 = cdt * 0.5 * self.ka[:, None]         # dt/dx x K1 / 2
         dtw = dt * w
         wmu = w * self.mu[:, None] if fast else None
         hr = self.hr[:, None]
         inv_hr = 1.0 / np.where(hr > 0, hr, np.inf)
         dtw_half = dtw / half[:, None]
-        dt_w0 = dt * w0 / half
-        gtsv = self.gtsv
+        solve = self.ptsv
         hs_min = float(hs.min())
-        flux = np.zeros((n, T))                   # dt x flow through the first face [m2/m]
-        for t in range(T):
-            r, p = rain_rate[t], pet_rate[t]
-            direct = min(r, p)                    # ET met from the day's rain first
-            r, p = r - direct, p - direct
-            et[:, t] = direct * dt * substeps
-            drain[:, t] = dt_w0 * r * substeps    # rain on the half cell over the drain
-            if fast:
-                pin = p * inv_hr                  # in the band ET = pin h
-                dtw_pin = dtw * pin
-                dtw_p = dtw * p
-                dtw_r = dtw * r - dtw_p
-            for _ in range(substeps):
-                h = hb[:, 1:]
+        B = self.BLOCK
+        K = B * S
+        # states of one block: column 0 the drain node (h = 0), then the M nodes
+        H = np.zeros((K + 1, n, M + 1))
+        H[0, :, 1:] = h
+        cl = np.zeros((n, M + 1))                 # dt/dx x face transmissivity, j-1/2
+        ctl, ctr = cl[:, :M], cl[:, 1:]
+        tmp = np.empty((n, M))
+        # the system's diagonal, right-hand side and off-diagonal, and their flat views
+        # (what the solver takes; it overwrites them)
+        diag_t, rhs_t, neg = np.empty((n, M)), np.empty((n, M)), np.empty((n, M))
+        diag_f, rhs_f, off = diag_t.reshape(-1), rhs_t.reshape(-1), neg.reshape(-1)[:-1]
+        d_band, b_band, e_band = np.empty(n * M), np.empty(n * M), np.empty(n * M - 1)
+        d_band2, b_band2 = d_band.reshape(n, M), b_band.reshape(n, M)
+        vmax, vmin, vany = np.maximum.reduce, np.minimum.reduce, np.logical_or.reduce
+        for t0 in range(0, T, B):
+            nt = min(B, T - t0)
+            slow = {}                             # substep -> (flux, runoff, ET) of _step
+            bands = {}                            # substep -> band, where it is not h < hr
+            k = 0
+            for t in range(t0, t0 + nt):
+                r, p = float(r_all[t]), float(p_all[t])
                 if fast:
-                    ctl = a0 + a1 * (h + hb[:, :-1])
-                    cl[:, :M] = ctl
-                    ctr = cl[:, 1:]
-                    off = -ctr.ravel()[:-1]          # a new array (ravel may be a view)
-                    diag_t = ctl + ctr + wmu
-                    rhs_t = wmu * h + dtw_r
-                    new_band = h < hr
-                    for _k in range(8):        # ET = p min(1, h/hr) at the new state
-                        band = new_band        # the band this solve uses (and the ET sum)
-                        # the solver may overwrite its inputs: give it fresh arrays
-                        sol = gtsv(off.copy(), (diag_t + band * dtw_pin).ravel(), off.copy(),
-                                   (rhs_t + band * dtw_p).ravel(), 1, 1, 1, 1)[3]
-                        h_new = sol.reshape(n, M)
+                    pin = p * inv_hr              # in the band ET = pin h
+                    dtw_pin, dtw_p = dtw * pin, dtw * p
+                    dtw_r = dtw * r - dtw_p
+                for _ in range(S):
+                    hb = H[k]
+                    h = hb[:, 1:]
+                    h_new = None
+                    if fast:
+                        np.add(h, hb[:, :-1], out=tmp)
+                        np.multiply(a1, tmp, out=tmp)
+                        np.add(a0, tmp, out=ctl)
+                        np.add(ctl, ctr, out=diag_t)
+                        np.add(diag_t, wmu, out=diag_t)
+                        np.multiply(wmu, h, out=rhs_t)
+                        np.add(rhs_t, dtw_r, out=rhs_t)
+                        np.negative(ctr, out=neg)
                         if p == 0.0:
-                            break
-                        new_band = h_new < hr
-                        if (new_band == band).all():
-                            break
-                    # bounds: the surface, and drain level (rounding below it, a few
-                    # 1e-18 m where the water table rests on the drains, is let stand)
-                    if (h_new.max() <= hs_min or (h_new - hs).max() <= 0.0) \
-                            and h_new.min() >= -_FLOOR_TOLERANCE:
-                        flux[:, t] += ctl[:, 0] * h_new[:, 0]
-                        et[:, t] += ((p + band * (pin * h_new - p)) * dtw_half).sum(axis=1)
-                        hb[:, 1:] = h_new
-                        continue
-                h_new, q_d, ro, e = self._step(h.copy(), r, p)
-                flux[:, t] += q_d
-                runoff[:, t] += ro / half
-                et[:, t] += e / half
-                hb[:, 1:] = h_new
-            h_mid[:, t] = hb[:, -1]
-            if fast:
-                storage[:, t + 1] = (wmu * hb[:, 1:]).sum(axis=1)
-            else:
-                storage[:, t + 1] = (self.storage_of(hb[:, 1:]) * w).sum(axis=1)
-        storage[:, 1:] /= half[:, None]
-        drain += flux / half[:, None]
-        return hb[:, 1:].copy(), (self.zd[:, None] - h_mid, drain, runoff, et, storage)
+                            x = solve(diag_f, off, rhs_f, 1, 1, 1)[2]
+                        else:
+                            new_band = h < hr
+                            for it in range(8):    # ET = p min(1, h/hr) at the new state
+                                band = new_band    # the band this solve uses (and the ET sum)
+                                np.multiply(band, dtw_pin, out=d_band2)
+                                np.add(d_band2, diag_t, out=d_band2)
+                                np.multiply(band, dtw_p, out=b_band2)
+                                np.add(b_band2, rhs_t, out=b_band2)
+                                np.copyto(e_band, off)
+                                x = solve(d_band, e_band, b_band, 1, 1, 1)[2]
+                                new_band = x.reshape(n, M) < hr
+                                if not vany(new_band != band, axis=None):
+                                    break
+                            else:
+                                bands[k] = band
+                        h_new = x.reshape(n, M)
+                        # bounds: the surface, and drain level (rounding below it, a few
+                        # 1e-18 m where the water table rests on the drains, is let stand)
+                        if not ((vmax(x) <= hs_min or vmax(h_new - hs, axis=None) <= 0.0)
+                                and vmin(x) >= -_FLOOR_TOLERANCE):
+                            h_new = None
+                    if h_new is None:
+                        bands.pop(k, None)
+                        h_new, q_d, ro, e = self._step(h.copy(), r, p)
+                        slow[k] = (q_d, ro / half, e / half)
+                    H[k + 1, :, 1:] = h_new
+                    k += 1
+            self._block(H, k, t0, nt, S, slow, bands, p_all, inv_hr, a0, a1, dtw_half, wmu,
+                        hr, half, h_mid, drain, runoff, et, storage)
+            H[0] = H[k]
+        return H[0, :, 1:].copy(), (self.zd[:, None] - h_mid, drain, runoff, et, storage)
+
+    def _block(self, H, k, t0, nt, S, slow, bands, p_all, inv_hr, a0, a1, dtw_half, wmu, hr,
+               half, h_mid, drain, runoff, et, storage):
+        """Fluxes, ET and storage of a block of ``k`` substeps from its states ``H``."""
+        n = self.n
+        old, new = H[:k, :, 1:], H[1:k + 1, :, 1:]
+        p = np.repeat(p_all[t0:t0 + nt], S)[:, None, None]                  # (k, 1, 1)
+        # flow through the first face: dt/dx x (K2 d + K1 h_1 / 2) x h_1 (the drain node 0)
+        flux = (a0[:, 0] + a1[:, 0] * old[:, :, 0]) * new[:, :, 0]          # (k, n)
+        band = new < hr
+        for j, b in bands.items():
+            band[j] = b
+        e = ((p + band * ((p * inv_hr) * new - p)) * dtw_half).sum(axis=2)   # (k, n)
+        ro = np.zeros((k, n))
+        for j, (q_d, r_j, e_j) in slow.items():
+            flux[j], ro[j], e[j] = q_d, r_j, e_j
+        rows = slice(t0, t0 + nt)
+        drain[:, rows] += flux.reshape(nt, S, n).sum(axis=1).T / half[:, None]
+        runoff[:, rows] = ro.reshape(nt, S, n).sum(axis=1).T
+        et[:, rows] += e.reshape(nt, S, n).sum(axis=1).T
+        ends = H[S:k + 1:S, :, 1:]                                          # (nt, n, M)
+        h_mid[:, rows] = ends[:, :, -1].T
+        if wmu is not None:
+            storage[:, t0 + 1:t0 + nt + 1] = (wmu * ends).sum(axis=2).T / half[:, None]
+        else:
+            storage[:, t0 + 1:t0 + nt + 1] = (self.storage_of(ends) * self.w).sum(
+                axis=2).T / half[:, None]
 
     def _step(self, h, r, p):
         """One implicit step with the layered storage and the bounds (active set)."""
