@@ -170,10 +170,18 @@ def plan_layout(inp: LayoutInputs) -> LayoutPlan:
         if not lines:
             raise InputError(f"main file {inp.main_path} holds no line", param="main")
         user_mains = np.full(len(geoms), None, dtype=object)
-        for i, g in enumerate(geoms):
-            if g is None:
+        lines_arr = np.array(lines, dtype=object)
+        # which drawn lines touch which field: one spatial-index query for all fields
+        field_i, line_i = shapely.STRtree(lines_arr).query(
+            np.asarray(geoms, dtype=object), predicate="intersects")
+        order = np.lexsort((line_i, field_i))            # by field, lines in file order
+        line_i, field_i = line_i[order], field_i[order]
+        cut = np.flatnonzero(np.diff(field_i)) + 1
+        for f_idx, l_idx in zip(np.split(field_i, cut), np.split(line_i, cut)):
+            if len(f_idx) == 0:
                 continue
-            hits = [ln for ln in lines if shapely.intersects(ln, g)]
+            i = int(f_idx[0])
+            hits = list(lines_arr[l_idx])
             if hits:
                 merged = shapely.line_merge(shapely.union_all(hits))
                 if merged.geom_type == "MultiLineString":
@@ -198,8 +206,8 @@ def plan_layout(inp: LayoutInputs) -> LayoutPlan:
     # each field's main drains towards the nearest outlet point
     field_outlet = None
     if len(outlet_pts):
-        cen = np.array([shapely.get_coordinates(shapely.centroid(g))[0] if g is not None
-                        else (np.nan, np.nan) for g in geoms])
+        c = shapely.centroid(np.asarray(geoms, dtype=object))      # None stays None
+        cen = np.column_stack([shapely.get_x(c), shapely.get_y(c)])  # NaN for None
         near = np.argmin(np.hypot(cen[:, None, 0] - outlet_pts[None, :, 0],
                                   cen[:, None, 1] - outlet_pts[None, :, 1]), axis=1)
         field_outlet = outlet_pts[near]

@@ -223,3 +223,33 @@ def test_exclusion_setback_attribute(run, tmp_path):
     assert r.exit_code == 0, r.output
     layer = gpd.read_file(tmp_path / "o.gpkg", layer="exclusions")
     assert sorted(layer["setback_m"]) == [5.0, 10.0, 40.0]
+
+
+def test_drawn_mains_follow_the_lines_drawn(run, tmp_path):
+    """`--main`: each field's main follows the drawn lines that touch it (two drawn pieces
+    in one field are joined; a line touching no field is ignored). Reference: the
+    drawn lines clipped to each field with shapely, computed here line by line."""
+    crs = "EPSG:32617"
+    a = shapely.box(330_000, 4_650_000, 330_300, 4_650_400)
+    b = shapely.box(330_350, 4_650_000, 330_650, 4_650_400)
+    fields = tmp_path / "f.gpkg"
+    gpd.GeoDataFrame({"name": ["A", "B"]}, geometry=[a, b], crs=crs).to_file(fields)
+    drawn = [shapely.LineString([(330_010, 4_650_005), (330_290, 4_650_005)]),   # A's south edge
+             shapely.LineString([(330_360, 4_650_395), (330_500, 4_650_395)]),   # B, two
+             shapely.LineString([(330_500, 4_650_395), (330_640, 4_650_395)]),   # pieces
+             shapely.LineString([(331_000, 4_651_000), (331_100, 4_651_000)])]   # nowhere
+    mains = tmp_path / "m.gpkg"
+    gpd.GeoDataFrame(geometry=drawn, crs=crs).to_file(mains)
+    out = tmp_path / "plan.gpkg"
+    r = run("layout", fields, "--spacing", "20 m", "--direction", "0", "--setback", "5 m",
+            "--main", mains, "--keep-metric-crs", "-o", out)
+    assert r.exit_code == 0, r.output
+    got = gpd.read_file(out, layer="mains")
+    assert len(got) == 2
+    for g in got.geometry:
+        ref = [ln for ln in drawn if shapely.intersects(ln, a)] if g.intersects(a) else \
+            [ln for ln in drawn if shapely.intersects(ln, b)]
+        ref_line = shapely.line_merge(shapely.union_all(ref))
+        # the main lies on the drawn line (it may be trimmed to the laterals' reach)
+        assert g.hausdorff_distance(ref_line.intersection(g.buffer(0.01))) < 0.05
+        assert shapely.buffer(ref_line, 0.01).contains(g)
