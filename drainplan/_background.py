@@ -114,6 +114,15 @@ class Task:
         self._pid, self._fd = pid, read_fd
 
     # -- in the caller -----------------------------------------------------------------
+    def running(self):
+        """True while the piece is still working in the second process (False once it
+        has finished, or when it runs in this process)."""
+        if self._pid is None or self._done:
+            return False
+        import select
+
+        return not select.select([self._fd], [], [], 0)[0]
+
     def result(self):
         """The piece's return value (its exception raised, its warnings re-issued here)."""
         if not self._done:

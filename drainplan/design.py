@@ -206,7 +206,7 @@ def project_pipe_series(project):
         "inch" if project.report.get("units", "metric") == "us" else "metric")
 
 
-def design(project, *, progress=None):
+def design(project, *, progress=None, idle=None):
     """Run the whole design for a loaded project.
 
     Parameters
@@ -214,6 +214,10 @@ def design(project, *, progress=None):
     project : Project
     progress : callable, optional
         Called with a short text as each step starts.
+    idle : callable, optional
+        Called (once, without arguments) when the layout and the pipes are done but
+        the season simulation, running beside them in a second process, is not: time
+        for the caller to prepare what comes next (load the report's libraries).
 
     Returns
     -------
@@ -361,6 +365,8 @@ def design(project, *, progress=None):
         _add_uncertainty(summary, figures, p, unc, spacing, deterministic_spacing)
         if sim_task is not None:
             say("season simulation")
+            if idle is not None and sim_task.running():
+                idle()
             try:
                 sim = sim_task.result()
             except _NeedsFieldLatitude:       # PET from temperatures at the fields' latitude

@@ -28,7 +28,7 @@ from . import _background as background
 from .errors import InputError
 
 __all__ = ["write_design_outputs", "write_output_folder", "check_output_folder",
-           "render_figures", "OUTPUT_FILES", "MANIFEST"]
+           "render_figures", "load_report_libraries", "OUTPUT_FILES", "MANIFEST"]
 
 OUTPUT_FILES = ("design_sheet.pdf", "design.gpkg", "pipe_schedule.csv", "summary.json")
 
@@ -49,6 +49,14 @@ def render_figures(result, names=None):
     from .plots import DESIGN_FIGURES, design_figures
 
     return design_figures(result, names=DESIGN_FIGURES if names is None else names)
+
+
+def load_report_libraries():
+    """Import matplotlib's figure and image backend and reportlab (half a second on a
+    fresh process), e.g. while waiting for a part of the design running elsewhere."""
+    import matplotlib.backends.backend_agg  # noqa: F401
+    import matplotlib.figure  # noqa: F401
+    import reportlab.platypus  # noqa: F401
 
 
 def _clean(obj):

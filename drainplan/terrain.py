@@ -21,10 +21,12 @@ __all__ = ["PointSurface", "RasterSurface", "fit_plane", "fall_bearing", "sample
 class PointSurface:
     """Elevation surface from scattered survey points.
 
-    Linear interpolation on the Delaunay triangulation of the points
-    (scipy ``Delaunay`` and ``LinearNDInterpolator``); outside the triangulated hull
-    the nearest point's elevation is used (``NearestNDInterpolator``, built on the
-    first such point), so small gaps at the field edge do not break the design.
+    Linear interpolation on the Delaunay triangulation of the points (scipy
+    ``Delaunay``: the triangle by ``find_simplex``, barycentric weights from its
+    transform, as scipy's ``LinearNDInterpolator`` computes them, without loading
+    ``scipy.interpolate``); outside the triangulated hull the nearest point's
+    elevation is used (a ``cKDTree`` built on the first such point), so small gaps at
+    the field edge do not break the design.
     :func:`check_coverage` refuses fields that lie largely outside the survey.
 
     Notes
@@ -41,7 +43,6 @@ class PointSurface:
     z: np.ndarray
 
     def __post_init__(self):
-        from scipy.interpolate import LinearNDInterpolator
         from scipy.spatial import Delaunay, QhullError
 
         self.xy = np.asarray(self.xy, float)
@@ -59,7 +60,7 @@ class PointSurface:
             raise InputError("survey points are all on one line; they cannot describe a "
                              "surface", param="survey") from None
         _set_barycentric_transforms(tri)
-        self._linear = LinearNDInterpolator(tri, self.z)
+        self._tri = tri
         self._nearest = None
         lo, hi = self.xy.min(axis=0), self.xy.max(axis=0)
         # cells of about 16 survey points each for the lookup order
@@ -80,10 +81,28 @@ class PointSurface:
         miss = np.isnan(z)
         if np.any(miss):
             if self._nearest is None:
-                from scipy.interpolate import NearestNDInterpolator
+                from scipy.spatial import cKDTree
 
-                self._nearest = NearestNDInterpolator(self.xy, self.z)
-            z[miss] = self._nearest(xy[miss])
+                self._nearest = cKDTree(self.xy)
+            z[miss] = self.z[self._nearest.query(xy[miss])[1]]
+        return z
+
+    def _linear(self, xy):
+        """Linear interpolation in the triangle holding each point (NaN outside)."""
+        tri = self._tri
+        s = tri.find_simplex(xy)
+        inside = s >= 0
+        si = s[inside]
+        t = tri.transform[si]                                 # (m, 3, 2): T^-1, r
+        dx, dy = xy[inside, 0] - t[:, 2, 0], xy[inside, 1] - t[:, 2, 1]
+        # barycentric weights and the weighted sum in scipy's order of operations
+        # (LinearNDInterpolator), so the numbers are the same to the last bit
+        c0 = t[:, 0, 0] * dx + t[:, 0, 1] * dy
+        c1 = t[:, 1, 0] * dx + t[:, 1, 1] * dy
+        c2 = (1.0 - c0) - c1
+        zv = self.z[tri.simplices[si]]
+        z = np.full(len(xy), np.nan)
+        z[inside] = (c0 * zv[:, 0] + c1 * zv[:, 1]) + c2 * zv[:, 2]
         return z
 
     def hull(self):

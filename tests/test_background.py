@@ -82,3 +82,21 @@ def test_cancel_stops_the_child():
     task.cancel()
     with pytest.raises(ProcessLookupError):
         os.kill(pid, 0)                  # reaped: no such process
+
+
+def _sleep_then(value, seconds):
+    import time
+
+    time.sleep(seconds)
+    return value
+
+
+@needs_fork
+def test_running_until_the_piece_is_done():
+    import time
+
+    task = background.start(_sleep_then, 5, 0.5)
+    assert task.running()
+    time.sleep(1.0)
+    assert not task.running()           # finished: its result waits in the pipe
+    assert task.result() == 5 and not task.running()

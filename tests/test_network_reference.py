@@ -10,6 +10,9 @@ commit 4cf036a produced from them:
   layout benchmark's field maker), laid out at 18 m, one outlet point per 8
   fields, on an invented surveyed surface (the network benchmark's survey maker);
   the layout is stored, so the case does not depend on later layout changes.
+* ``routing_demo``: the arguments the demo design hands to ``route_submains`` (with
+  and without crossing setbacks) and ``route_trunk`` (fields with exclusions and
+  their setback zones), and the routes commit 4cf036a made from them.
 * ``demo``: the runs, carriers, options and survey points the demo design
   (``drainplan design demo_fields/project.toml``, invented data) hands to
   ``design_network``.
@@ -18,7 +21,9 @@ Every reach's inverts, grade and cover are compared to 1e-6 m, flows and areas t
 1e-9 relative, sizes, ids, kinds and warnings exactly; so are the problems, the
 take-off rows, the outlets, the totals and every pipe profile (sample count and
 sums). Regenerate the files only when a change of results is intended, with the
-old code checked out:  ``python tests/test_network_reference.py --capture``.
+old code checked out:  ``python tests/test_network_reference.py --capture`` (the
+routing case was captured from the demo's routing calls the same way, the routes
+computed by the old code).
 """
 
 from __future__ import annotations
@@ -292,6 +297,44 @@ def test_network_same_as_previous_implementation(name):
     assert len(out["reaches"]) > 100
     bad = _compare(out, ref["outputs"], name)
     assert bad is None, bad
+
+
+def _decode(v):
+    if "wkb" in v:
+        return _geoms(v["wkb"])
+    if "wkb1" in v:
+        return _geoms([v["wkb1"]])[0]
+    if "list" in v:
+        return [_decode(x) for x in v["list"]]
+    x = v["plain"]
+    return np.asarray(x) if isinstance(x, list) else x
+
+
+def test_routing_same_as_previous_implementation():
+    """Sub-mains and trunk of the demo's fields (exclusions, setbacks) as commit 4cf036a
+    routed them."""
+    from drainplan.network.routing import route_submains, route_trunk
+
+    with gzip.open(DATA / "network_reference_routing_demo.json.gz", "rt") as f:
+        cases = json.load(f)
+    assert {c["kind"] for c in cases} == {"sub", "trunk"}
+    for c in cases:
+        args = [_decode(a) for a in c["args"]]
+        kw = {k: _decode(v) for k, v in c["kw"].items()}
+        if c["kind"] == "sub":
+            s = route_submains(*args, **kw)
+            got = {"submains": _wkb(s.lines), "submain_to": _plain(s.to),
+                   "submain_field": _plain(s.field_of), "served": _plain(s.served),
+                   "reason": list(s.reason), "direct": _plain(sorted(s.direct.items()))}
+        else:
+            tr = route_trunk(*args, **kw)
+            got = {"trunk": _wkb(tr.lines), "trunk_to": _plain(tr.to),
+                   "trunk_outlet": _plain(tr.outlet), "main_to": _plain(tr.main_to),
+                   "main_outlet": _plain(tr.main_outlet), "unreached": _plain(tr.unreached)}
+        got = json.loads(json.dumps(got))
+        assert len(got.get("submains", got.get("trunk"))) > 0
+        bad = _compare(got, c["out"], c["kind"])
+        assert bad is None, bad
 
 
 def test_comparison_catches_a_change():

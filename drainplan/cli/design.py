@@ -79,7 +79,7 @@ def design(ctx, project_path, output, overwrite, as_json):
         drainplan design demo_fields/project.toml -o demo_design
     """
     from ..design import design as run_design
-    from ..outputs import check_output_folder, write_design_outputs
+    from ..outputs import check_output_folder, load_report_libraries, write_design_outputs
     from ..project import load_project
 
     quiet = bool(ctx.obj and ctx.obj.get("quiet"))
@@ -92,7 +92,7 @@ def design(ctx, project_path, output, overwrite, as_json):
         if not quiet:
             click.echo(f"[{time.perf_counter() - t0:5.1f} s] {step}", err=True)
 
-    result = run_design(project, progress=progress)
+    result = run_design(project, progress=progress, idle=load_report_libraries)
     paths = write_design_outputs(result, out, overwrite=overwrite, progress=progress)
     s = result.summary
     if as_json:

@@ -535,31 +535,43 @@ def design_network(runs, carriers, options, *, surface=None, outlets=None):
     if surface is not None:
         need = (options.ditch_water_level + options.outfall_margin
                 if options.ditch_water_level is not None else None)
-        for k in range(nc - 1, -1, -1):              # outlet first
-            a, b = car_start[k], car_start[k] + car_n[k]
-            ch, xy = car_ch[a:b], car_xy[a:b]
-            if c_to[k] < 0:
-                floor_end = need if need is not None else -np.inf
+        lv = np.array([depth[c] for c in order], np.int64)
+        blocks = np.r_[0, np.flatnonzero(np.diff(lv)) + 1, nc] if nc else np.zeros(1, int)
+        for la, lb in list(zip(blocks[:-1], blocks[1:]))[::-1]:     # outlet first
+            ks = np.arange(la, lb)
+            floor_end = np.empty(lb - la)
+            root = c_to[ks] < 0
+            for k in ks[root][::-1]:
+                floor_end[k - la] = need if need is not None else -np.inf
                 if need is not None and end_z[k] < need:
+                    e = car_last[k]
                     violations.append(_violation(
-                        "outlet", order[k], ch[-1], xy[-1],
+                        "outlet", order[k], car_ch[e], car_xy[e],
                         f"outlet invert {end_z[k]:.2f} m is below the receiving water "
                         f"level {options.ditch_water_level:.2f} m + {options.outfall_margin:.2f}"
                         f" m; raised to {need:.2f} m (the pipes above lose depth)",
                         "lower the ditch, use a pumped outlet, or a shallower design depth",
                         ))
-            else:
-                p = c_to[k]
-                pa, pb = car_start[p], car_start[p] + car_n[p]
-                floor_end = float(np.interp(car_jch[k], car_ch[pa:pb], car_z[pa:pb]))
-            car_z[a:b] = np.maximum(car_z[a:b], floor_end + gmin * (ch[-1] - ch))
-            end_z[k] = float(car_z[b - 1])
+            if np.any(~root):
+                # where each joins its receiving carrier (the level below, done already)
+                par = c_to[ks[~root]]
+                pa, pb = int(par.min()), int(par.max()) + 1
+                s0, s1 = car_start[pa], car_start[pb - 1] + car_n[pb - 1]
+                zl = car_z[s0:s1]
+                floor_end[~root] = _interp_along(
+                    par - pa, car_jch[ks[~root]], np.stack([zl, zl], axis=1),
+                    car_start[pa:pb] - s0, car_n[pa:pb], car_ch[s0:s1])[:, 0]
+            s0, s1 = car_start[la], car_start[lb - 1] + car_n[lb - 1]
+            own = np.repeat(np.arange(lb - la), car_n[la:lb])
+            ch = car_ch[s0:s1]
+            car_z[s0:s1] = np.maximum(car_z[s0:s1], floor_end[own] + gmin *
+                                      (car_ch[car_last[la:lb]][own] - ch))
+            end_z[la:lb] = car_z[car_last[la:lb]]
         floor = np.full(nr, need if need is not None else -np.inf)
-        for k in range(nc):
-            ri = runs_into[k]
-            if ri.size:
-                a, b = car_start[k], car_start[k] + car_n[k]
-                floor[ri] = np.interp(run_jch[ri], car_ch[a:b], car_z[a:b])
+        if joined.size:
+            floor[joined] = _interp_along(r_to[joined], run_jch[joined],
+                                          np.stack([car_z, car_z], axis=1), car_start,
+                                          car_n, car_ch)[:, 0]
         if nr:
             owner = np.repeat(np.arange(nr), lat_n)
             lat_z = np.maximum(lat_z, floor[owner] + gmin * (lat_ch[lat_last][owner] - lat_ch))
@@ -704,8 +716,8 @@ def design_network(runs, carriers, options, *, surface=None, outlets=None):
     outlet_rows = list(merged.values())
 
     for row in reaches:
-        for k in [k for k in row if k.startswith("_")]:
-            row.pop(k)
+        row.pop("_start", None)
+        row.pop("_end", None)
         row["warnings"] = "; ".join(row["warnings"])
 
     from .takeoff import takeoff_rows
@@ -1139,16 +1151,24 @@ def _size_rows(rows, series, options, violations, *, uniform_inflow, taper=False
     ok = idx >= 0
     d_all = series.inner_diameter[np.maximum(idx, 0)]
     full_all = _capacity(d_all, grade, series, options, False) / options.capacity_factor
-    n_all = (np.atleast_1d(manning_n(series.material, d_all)) if options.method == "manning"
-             else None)
     wall = "smooth" if series.material in ("smooth", "clay") else "corrugated"
     outside = power_law_outside(d_all, wall) if options.method != "manning" else \
         np.zeros(len(rows), bool)
     big_full = None
-    for k, (r, i, c, s) in enumerate(zip(rows, idx, cap, grade)):
+    # per size: inside diameter [mm] and Manning's n as shown (rounded once per size)
+    inner_mm = [round(float(d) * 1000.0, 1) for d in series.inner_diameter]
+    n_size = ([round(float(v), 5) for v in np.atleast_1d(
+        manning_n(series.material, series.inner_diameter))]
+        if options.method == "manning" else None)
+    usable = round(100.0 * options.capacity_factor, 1)
+    cap_l = (np.asarray(cap, float) * 1000.0).tolist()
+    vel = (full_all / (np.pi * d_all * d_all / 4.0)).tolist()
+    idx_l, ok_l = np.asarray(idx).tolist(), ok.tolist()
+    for k, r in enumerate(rows):
+        i, s = idx_l[k], grade[k]
         r["material"] = series.material
-        r["usable_capacity_pct"] = round(100.0 * options.capacity_factor, 1)
-        if not ok[k]:
+        r["usable_capacity_pct"] = usable
+        if not ok_l[k]:
             biggest = series.nominal[-1]
             if big_full is None:
                 big_full = _capacity(np.full(len(rows), series.inner_diameter[-1]), grade,
@@ -1166,20 +1186,20 @@ def _size_rows(rows, series, options, violations, *, uniform_inflow, taper=False
                 "split the area to a second outlet"))
             violations[-1]["summary"] = f"flow beyond the largest pipe ({biggest})"
             continue
-        d = float(d_all[k])
+        c = cap_l[k]
         r["size"] = series.nominal[i]
-        r["inner_diameter_mm"] = round(d * 1000.0, 1)
-        r["capacity_l_s"] = float(c) * 1000.0
-        r["capacity_used_pct"] = 100.0 * r["flow_l_s"] / (float(c) * 1000.0) if c > 0 else None
-        r["velocity_m_s"] = float(full_all[k] / (np.pi * d * d / 4.0))
-        if n_all is not None:
-            r["manning_n"] = round(float(n_all[k]), 5)
+        r["inner_diameter_mm"] = inner_mm[i]
+        r["capacity_l_s"] = c
+        r["capacity_used_pct"] = 100.0 * r["flow_l_s"] / c if c > 0 else None
+        r["velocity_m_s"] = vel[k]
+        if n_size is not None:
+            r["manning_n"] = n_size[i]
         elif outside[k]:
             lo, hi = POWER_LAW_RANGE[wall]
             r["warnings"].append("power law outside its diameter range")
             violations.append(_violation(
                 "power law range", r["reach_id"], 0.0, r.get("_start"),
-                f"{r['size']} ({d * 1000:.0f} mm inside) lies outside the "
+                f"{r['size']} ({float(d_all[k]) * 1000:.0f} mm inside) lies outside the "
                 f"{lo * 1000:.0f}-{hi * 1000:.0f} mm the drain-pipe power law was "
                 "fitted to; its capacity may be overstated",
                 "check these reaches with --capacity-method manning"))

@@ -162,44 +162,66 @@ def _carriers(fr, recv):
 
 
 def _runs(lat, con, carriers, spacing):
-    """Lateral runs from the layout's pieces and connectors (one per lateral id)."""
+    """Lateral runs from the layout's pieces and connectors (one per lateral id).
+
+    A run goes from the point of its pieces farthest from where it joins to the
+    nearest point of its carrier (for a lateral draining at its own end: to its first
+    point). All runs are built together with shapely's array functions."""
     import shapely
 
-    base = lat["lateral_id"].astype(str).str.replace(r"\.\d+$", "", regex=True)
-    to_col = lat["to_id"].astype(str) if "to_id" in lat.columns else None
-    groups = {}
-    for k, (rid, fid, g, length) in enumerate(zip(base, lat["field_id"].astype(str),
-                                                  lat.geometry, lat["length_m"])):
-        e = groups.setdefault(rid, {"field": fid, "geoms": [], "perf": 0.0, "con": 0.0,
-                                    "to": to_col.iloc[k] if to_col is not None else None})
-        e["geoms"].append(g)
-        e["perf"] += float(length)
+    base = lat["lateral_id"].astype(str).str.replace(r"\.\d+$", "", regex=True).to_numpy()
+    fid = lat["field_id"].astype(str).to_numpy()
+    to_col = lat["to_id"].astype(str).to_numpy() if "to_id" in lat.columns else None
+    ids, first, gi = np.unique(base, return_index=True, return_inverse=True)  # sorted ids
+    ng = len(ids)
+    perf = np.zeros(ng)
+    for k, length in enumerate(lat["length_m"].to_numpy(float)):   # in order, as summed
+        perf[gi[k]] += length
+    geoms = list(lat.geometry)
+    owner = list(gi)
+    conl = np.zeros(ng)
     if con is not None and len(con) and "lateral_id" in con.columns:
+        where = {rid: k for k, rid in enumerate(ids)}
         for rid, g in zip(con["lateral_id"].astype(str), con.geometry):
-            if rid in groups:
-                groups[rid]["geoms"].append(g)
-                groups[rid]["con"] += float(g.length)
-    runs = []
-    for rid in sorted(groups):
-        e = groups[rid]
-        to = e["to"]
-        if to is None:                               # a layout without to_id
-            to = f"{e['field']}-M"
-        if to in ("", "nan", "None") or to not in carriers:
-            to = None
-        pts = shapely.get_coordinates(np.array(e["geoms"], dtype=object))
-        if to is None:
-            # single-junction field: the lateral drains to its own end nearest the outlet
-            j = pts[0]
-        else:
-            line = carriers[to].line
-            d = shapely.distance(shapely.points(pts), line)
-            j = pts[int(np.argmin(d))]
-            j = np.asarray(line.interpolate(line.project(shapely.Point(j))).coords[0])
-        far = pts[int(np.argmax(np.hypot(*(pts - j).T)))]
-        runs.append(LateralRun(rid, e["field"], shapely.LineString([far, j]), e["perf"],
-                               spacing, to, e["con"]))
-    return runs
+            k = where.get(rid)
+            if k is not None:
+                geoms.append(g)
+                owner.append(k)
+                conl[k] += float(g.length)
+    owner = np.asarray(owner, np.int64)
+    o = np.argsort(owner, kind="stable")          # each run's pieces, then connectors
+    pts, which = shapely.get_coordinates(np.asarray(geoms, dtype=object)[o],
+                                         return_index=True)
+    pown = owner[o][which]
+    pstart = np.searchsorted(pown, np.arange(ng))
+    to = []
+    for k in range(ng):
+        t = to_col[first[k]] if to_col is not None else f"{fid[first[k]]}-M"
+        to.append(None if t in ("", "nan", "None") or t not in carriers else t)
+    has = np.array([t is not None for t in to], bool)
+    j = pts[pstart].copy()                        # draining at its own end: first point
+    if np.any(has):
+        lines = np.array([carriers[t].line if t is not None else None for t in to],
+                         dtype=object)
+        d = np.full(len(pts), np.inf)
+        sel = has[pown]
+        d[sel] = shapely.distance(shapely.points(pts[sel]), lines[pown[sel]])
+        near = _first_min(d, pstart)
+        ln = lines[has]
+        j[has] = shapely.get_coordinates(shapely.line_interpolate_point(
+            ln, shapely.line_locate_point(ln, shapely.points(pts[near[has]]))))
+    far = _first_min(-np.hypot(*(pts - j[pown]).T), pstart)
+    run_lines = shapely.linestrings(np.stack([pts[far], j], axis=1))
+    return [LateralRun(ids[k], fid[first[k]], run_lines[k], float(perf[k]), spacing, to[k],
+                       float(conl[k])) for k in range(ng)]
+
+
+def _first_min(values, starts):
+    """Per group (groups start at ``starts``, in order), the index of its first
+    smallest value (as ``argmin``)."""
+    m = np.minimum.reduceat(values, starts)
+    hit = np.flatnonzero(values == np.repeat(m, np.diff(np.r_[starts, len(values)])))
+    return hit[np.searchsorted(hit, starts)]
 
 
 def _layers(design, runs, carriers, work_crs, out_crs):
@@ -216,10 +238,9 @@ def _layers(design, runs, carriers, work_crs, out_crs):
     lat_rows = [by_id[r.run_id] for r in runs]
     lat = gpd.GeoDataFrame(attrs(lat_rows), geometry=[r.line for r in runs], crs=work_crs)
     car_rows = [r for r in design.reaches if r["kind"] != "lateral"]
-    geoms = []
-    for r in car_rows:
-        a, b = r["chainage_m"]
-        geoms.append(substring(carriers[r["carrier_id"]].line, a, b))
+    geoms = _pieces([carriers[r["carrier_id"]].line for r in car_rows],
+                    np.array([r["chainage_m"] for r in car_rows], float).reshape(-1, 2),
+                    substring)
     mn = gpd.GeoDataFrame(attrs(car_rows, ("kind", "carrier_id")), geometry=geoms,
                           crs=work_crs)
     viol = [v for v in design.violations if v["x"] is not None and np.isfinite(v["x"])]
@@ -230,6 +251,67 @@ def _layers(design, runs, carriers, work_crs, out_crs):
     if out_crs != work_crs:
         out = {k: v.to_crs(out_crs) for k, v in out.items()}
     return out
+
+
+def _pieces(lines, ab, substring):
+    """The stretch from chainage a to b of each line (a < b), as
+    ``shapely.ops.substring`` cuts it, for all lines at once: the points at a and b and
+    the vertices strictly between them (vertex chainages summed along the line as
+    there)."""
+    import shapely
+
+    n = len(lines)
+    if not n:
+        return []
+    line_arr = np.asarray(lines, dtype=object)
+    ok = (ab[:, 0] < ab[:, 1]) & (ab[:, 0] >= 0) & \
+        np.array([g is not None and g.geom_type == "LineString" for g in lines], bool)
+    out = np.empty(n, dtype=object)
+    for i in np.flatnonzero(~ok):                 # anything unusual: shapely itself
+        out[i] = substring(lines[i], ab[i, 0], ab[i, 1])
+    k = np.flatnonzero(ok)
+    if not k.size:
+        return list(out)
+    p0 = shapely.get_coordinates(shapely.line_interpolate_point(line_arr[k], ab[k, 0]))
+    p1 = shapely.get_coordinates(shapely.line_interpolate_point(line_arr[k], ab[k, 1]))
+    # vertices of each distinct line, with their chainages
+    uniq, inv = np.unique(np.array([id(g) for g in line_arr[k]]), return_inverse=True)
+    first = np.zeros(len(uniq), np.int64)
+    first[inv[::-1]] = np.arange(len(k))[::-1]
+    xy, which = shapely.get_coordinates(line_arr[k][first], return_index=True)
+    vstart = np.searchsorted(which, np.arange(len(uniq)))
+    vcount = np.diff(np.r_[vstart, len(xy)])
+    # segment lengths as substring computes them, in Python floats (its ** 0.5 is the
+    # C library's pow, which numpy's vectorised power may round differently)
+    pl = xy.tolist()
+    step = np.array([0.0] + [((q[0] - p[0]) ** 2 + (q[1] - p[1]) ** 2) ** 0.5
+                             for p, q in zip(pl[:-1], pl[1:])])
+    step[vstart] = 0.0
+    cum = np.empty(len(xy))
+    for u in range(len(uniq)):                    # a running sum per line, in order
+        a, b = vstart[u], vstart[u] + vcount[u]
+        cum[a:b] = np.cumsum(step[a:b])
+    lo = np.empty(len(k), np.int64)
+    hi = np.empty(len(k), np.int64)
+    o = np.argsort(inv, kind="stable")
+    cuts = np.searchsorted(inv[o], np.arange(len(uniq) + 1))
+    for u in range(len(uniq)):                    # vertices strictly inside (a, b)
+        r = o[cuts[u]:cuts[u + 1]]
+        a, b = vstart[u], vstart[u] + vcount[u] - 1          # never the last vertex
+        lo[r] = a + np.searchsorted(cum[a:b], ab[k[r], 0], side="right")
+        hi[r] = a + np.searchsorted(cum[a:b], ab[k[r], 1], side="left")
+    mid = np.maximum(hi - lo, 0)
+    cnt = mid + 2
+    idx = np.repeat(np.arange(len(k)), cnt)
+    pos = np.arange(int(cnt.sum())) - np.repeat(np.r_[0, np.cumsum(cnt)[:-1]], cnt)
+    coords = np.empty((len(idx), 2))
+    is0, is1 = pos == 0, pos == np.repeat(cnt - 1, cnt)
+    coords[is0] = p0
+    coords[is1] = p1
+    inner = ~is0 & ~is1
+    coords[inner] = xy[(np.repeat(lo, cnt) + pos - 1)[inner]]
+    out[k] = shapely.linestrings(coords, indices=idx)
+    return list(out)
 
 
 def schedule_csv(design):

@@ -86,16 +86,59 @@ class _Visibility:
         ok = shapely.covered_by(seg, self.cover) if i.size else np.zeros(0, bool)
         self.i, self.j = i[ok], j[ok]
         self.w = np.hypot(*(self.xy[self.i] - self.xy[self.j]).T)
-        # the corner links as rows 1..n of a sparse matrix (row-major, as triu_indices
-        # gives them); node 0, the start of each path, is put in front per path
-        self._ptr = np.concatenate(([0], np.cumsum(np.bincount(self.i, minlength=n))))
-        self._cols = self.j + 1
+        self._index()
+
+    def _index(self):
+        """The corner links in both directions, placed for :meth:`_graph`.
+
+        The links in both directions as compressed rows, for a directed search that
+        scans each node's links in the order the undirected search scans them: its
+        links to later nodes (as triu_indices gives them), then those from earlier
+        nodes (the start, node 0, first; then corners in ascending order)."""
+        n = len(self.xy)
+        ii, jj = self.i + 1, self.j + 1
+        self._fwd = np.bincount(ii, minlength=n + 1)            # per row
+        self._rev = np.bincount(jj, minlength=n + 1)
+        o = np.lexsort((ii, jj))                               # reverse links by row
+        self._row = np.concatenate((ii, jj[o]))
+        self._col = np.concatenate((jj, ii[o]))
+        self._w = np.concatenate((self.w, self.w[o]))
+        self._is_rev = np.concatenate((np.zeros(len(ii), bool), np.ones(len(ii), bool)))
+        first = np.concatenate(([0], np.cumsum(self._fwd)[:-1]))
+        rfirst = np.concatenate(([0], np.cumsum(self._rev)[:-1]))
+        self._off = np.concatenate((np.arange(len(ii)) - first[ii],
+                                    np.arange(len(ii)) - rfirst[jj[o]]))
+
+    def _graph(self, cols0, w0):
+        """The search graph with the start (node 0) linked to the corners ``cols0``
+        (ascending) at weights ``w0``: compressed rows, row 0 the start's links; row u
+        its links to later corners, the start's link to it, links from earlier corners
+        (the undirected search's scanning order, so the same paths on ties)."""
+        from scipy.sparse import csr_matrix
+
+        n = len(self.xy)
+        s = np.zeros(n + 1, np.int64)
+        s[cols0 + 1] = 1
+        count = self._fwd + s + self._rev
+        count[0] = len(cols0)
+        indptr = np.concatenate(([0], np.cumsum(count)))
+        indices = np.empty(indptr[-1], np.int64)
+        data = np.empty(indptr[-1])
+        at = indptr[self._row] + self._off + np.where(self._is_rev, self._fwd[self._row] +
+                                                      s[self._row], 0)
+        indices[at] = self._col
+        data[at] = np.maximum(self._w, 1e-9)
+        indices[:len(cols0)] = cols0 + 1
+        data[:len(cols0)] = w0
+        back = indptr[cols0 + 1] + self._fwd[cols0 + 1]
+        indices[back] = 0
+        data[back] = w0
+        return csr_matrix((data, indices, indptr), shape=(n + 1, n + 1))
 
     def path(self, start, targets):
         """Shortest path from ``start`` (x, y) to the nearest visible point of
         ``targets`` (a line geometry) inside the area; LineString or None."""
         import shapely
-        from scipy.sparse import csr_matrix
         from scipy.sparse.csgraph import dijkstra
 
         start = np.asarray(start, float)
@@ -113,15 +156,10 @@ class _Visibility:
         else:
             sees, reach = np.zeros(0, bool), shapely.covered_by(links, self.cover)
         cost_t = np.where(reach, shapely.length(links), np.inf)
-        # the graph in compressed rows: row 0 the start's links (columns ascending),
-        # then the corner links; the same matrix as built from (row, column) pairs
         cols0 = np.flatnonzero(sees)
-        w = np.maximum(np.concatenate((np.hypot(*(self.xy[cols0] - start).T), self.w)),
-                       1e-9)
-        indptr = np.concatenate(([0], len(cols0) + self._ptr))
-        g = csr_matrix((w, np.concatenate((cols0 + 1, self._cols)), indptr),
-                       shape=(n + 1, n + 1))
-        dist, pred = dijkstra(g, directed=False, indices=0, return_predecessors=True)
+        w0 = np.maximum(np.hypot(*(self.xy[cols0] - start).T), 1e-9)
+        g = self._graph(cols0, w0)
+        dist, pred = dijkstra(g, directed=True, indices=0, return_predecessors=True)
         total = dist + cost_t
         k = int(np.argmin(total))
         if not np.isfinite(total[k]):
@@ -383,12 +421,15 @@ def route_trunk(fields, main_ends, outlets, exclusions=None, *, mains=None, k_li
         ok &= ~shapely.intersects(seg, exclusions)
     # stretches through a field's interior cost more than along its edges; following
     # an existing main costs half (the main is there and is only enlarged). A link and
-    # its reverse (the first 2 x len(both) links) share one computation.
+    # its reverse (the first 2 x len(both) links) share one computation; links along a
+    # main need none.
+    is_main_edge = along_main & (node_f[e[:, 0]] == node_f[e[:, 1]]) & (e[:, 0] >= mbase)
     interiors = np.array([shapely.buffer(g, -2.0) if g is not None else shapely.Polygon()
                           for g in fields], dtype=object)
     itree = shapely.STRtree(interiors)
     nb = len(both)
     once = np.r_[np.arange(nb), np.arange(2 * nb, len(e))]
+    once = once[~is_main_edge[once]]
     pairs = itree.query(seg[once], predicate="intersects")
     inside_once = np.zeros(len(once))
     if pairs.size:
@@ -396,8 +437,7 @@ def route_trunk(fields, main_ends, outlets, exclusions=None, *, mains=None, k_li
             seg[once[pairs[0]]], interiors[pairs[1]])))
     inside = np.zeros(len(e))
     inside[once] = inside_once
-    inside[nb:2 * nb] = inside_once[:nb]
-    is_main_edge = along_main & (node_f[e[:, 0]] == node_f[e[:, 1]]) & (e[:, 0] >= mbase)
+    inside[nb:2 * nb] = inside[:nb]
     w = np.where(is_main_edge, 0.5 * length, length + (_INTERIOR_COST - 1.0) * inside)
     w = np.maximum(w, 1e-9)
     e, w = e[ok], w[ok]

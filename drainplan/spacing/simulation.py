@@ -510,8 +510,13 @@ class _Boussinesq:
         cl = np.zeros((n, M + 1))                 # dt/dx x face transmissivity, j-1/2
         ctl, ctr = cl[:, :M], cl[:, 1:]
         tmp = np.empty((n, M))
-        diag_t = np.empty((n, M))
-        rhs_t = np.empty((n, M))
+        # the system's diagonal, right-hand side and off-diagonal, and their flat views
+        # (what the solver takes; it overwrites them)
+        diag_t, rhs_t, neg = np.empty((n, M)), np.empty((n, M)), np.empty((n, M))
+        diag_f, rhs_f, off = diag_t.reshape(-1), rhs_t.reshape(-1), neg.reshape(-1)[:-1]
+        d_band, b_band, e_band = np.empty(n * M), np.empty(n * M), np.empty(n * M - 1)
+        d_band2, b_band2 = d_band.reshape(n, M), b_band.reshape(n, M)
+        vmax, vmin, vany = np.maximum.reduce, np.minimum.reduce, np.logical_or.reduce
         for t0 in range(0, T, B):
             nt = min(B, T - t0)
             slow = {}                             # substep -> (flux, runoff, ET) of _step
@@ -535,27 +540,29 @@ class _Boussinesq:
                         np.add(diag_t, wmu, out=diag_t)
                         np.multiply(wmu, h, out=rhs_t)
                         np.add(rhs_t, dtw_r, out=rhs_t)
-                        off = np.negative(ctr).ravel()[:-1]
+                        np.negative(ctr, out=neg)
                         if p == 0.0:
-                            h_new = solve(diag_t.ravel(), off, rhs_t.ravel(),
-                                          1, 1, 1)[2].reshape(n, M)
+                            x = solve(diag_f, off, rhs_f, 1, 1, 1)[2]
                         else:
                             new_band = h < hr
                             for it in range(8):    # ET = p min(1, h/hr) at the new state
                                 band = new_band    # the band this solve uses (and the ET sum)
-                                h_new = solve(diag_t.ravel() + (band * dtw_pin).ravel(),
-                                              off.copy(),
-                                              rhs_t.ravel() + (band * dtw_p).ravel(),
-                                              1, 1, 1)[2].reshape(n, M)
-                                new_band = h_new < hr
-                                if not (new_band != band).any():
+                                np.multiply(band, dtw_pin, out=d_band2)
+                                np.add(d_band2, diag_t, out=d_band2)
+                                np.multiply(band, dtw_p, out=b_band2)
+                                np.add(b_band2, rhs_t, out=b_band2)
+                                np.copyto(e_band, off)
+                                x = solve(d_band, e_band, b_band, 1, 1, 1)[2]
+                                new_band = x.reshape(n, M) < hr
+                                if not vany(new_band != band, axis=None):
                                     break
                             else:
                                 bands[k] = band
+                        h_new = x.reshape(n, M)
                         # bounds: the surface, and drain level (rounding below it, a few
                         # 1e-18 m where the water table rests on the drains, is let stand)
-                        if not ((h_new.max() <= hs_min or (h_new - hs).max() <= 0.0)
-                                and h_new.min() >= -_FLOOR_TOLERANCE):
+                        if not ((vmax(x) <= hs_min or vmax(h_new - hs, axis=None) <= 0.0)
+                                and vmin(x) >= -_FLOOR_TOLERANCE):
                             h_new = None
                     if h_new is None:
                         bands.pop(k, None)
