@@ -291,7 +291,8 @@ def test_cases_left_by_the_two_halley_steps_are_finished(monkeypatch):
         for branch in (True, False):
             i = np.flatnonzero(small == branch)
             if branch:
-                p, g, k2 = 1.0 / D[i], np.log(D[i] / (np.pi * r[i])), -0.25 * np.pi ** 2 / D[i] ** 2
+                p, g = 1.0 / D[i], np.log(D[i] / (np.pi * r[i]))
+                k2 = -0.25 * np.pi ** 2 / D[i] ** 2
             else:
                 p, g, k2 = 2.0 * np.pi * D[i], np.log(np.pi * r[i]), None
             L, good = ed._two_halley_steps(branch, ref[i] * factor, A[i], B[i], p, g, k2, 1e-6)
