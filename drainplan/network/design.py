@@ -463,16 +463,15 @@ def design_network(runs, carriers, options, *, surface=None, outlets=None):
     runs_into = _group(r_to[joined], joined, nc)
     cars_into = _group(c_to[inflow_order], inflow_order, nc)
 
-    # samples of every pipe; the ground sampled once for all of them
+    # samples of every pipe; the ground sampled once at each (laterals, then carriers)
     lat_ch, lat_xy, lat_start, lat_n, r_len = _sample_lines(r_line)
     ex_owner = np.r_[r_to[joined], c_to[inflow_order]]
     ex_ch = np.r_[run_jch[joined], car_jch[inflow_order]]
     car_ch, car_xy, car_start, car_n, c_len = _sample_lines(c_line, ex_owner, ex_ch)
     lat_ground = car_ground = None
     if surface is not None:
-        z = surface(np.vstack([lat_xy, car_xy])) if len(lat_xy) + len(car_xy) else \
-            np.empty(0)
-        lat_ground, car_ground = z[:len(lat_xy)], z[len(lat_xy):]
+        lat_ground = np.asarray(surface(lat_xy), float) if len(lat_xy) else np.zeros(0)
+        car_ground = np.asarray(surface(car_xy), float) if len(car_xy) else np.zeros(0)
     lat_last = lat_start + lat_n - 1
     car_last = car_start + car_n - 1
 
@@ -1006,14 +1005,24 @@ def _profile_checks(rows, lo, hi, ch, xy, ground, z, series, options, violations
     pipes that have one."""
     lo, hi = np.asarray(lo, np.int64), np.asarray(hi, np.int64)
     sel = np.flatnonzero(hi - lo >= 2)
-    if not sel.size:
-        return
+    # in chunks of about 250,000 samples (small temporaries), in order
+    ends = np.searchsorted(np.cumsum(hi[sel] - lo[sel]),
+                           np.arange(250_000, int((hi[sel] - lo[sel]).sum()), 250_000))
+    for part in np.split(sel, np.unique(ends + 1)):
+        if part.size:
+            _profile_checks_block(rows, part, lo, hi, ch, xy, ground, z, series, options,
+                                  violations)
+
+
+def _profile_checks_block(rows, sel, lo, hi, ch, xy, ground, z, series, options,
+                          violations):
+    """:func:`_profile_checks` of the rows ``sel``."""
     cnt = hi[sel] - lo[sel]
     seg0 = np.concatenate(([0], np.cumsum(cnt)[:-1]))
-    if lo[sel[0]] == 0 and np.array_equal(lo[sel[1:]], hi[sel[:-1]]) and \
-            hi[sel[-1]] == len(ch):
-        take = None                               # the rows cover the samples in order
-        c, g, zz = ch, ground, z
+    if np.array_equal(lo[sel[1:]], hi[sel[:-1]]):
+        base = int(lo[sel[0]])                    # the rows' samples follow each other
+        take = None
+        c, g, zz = (v[base:int(hi[sel[-1]])] for v in (ch, ground, z))
     else:
         take = _ranges(lo[sel], hi[sel])
         c, g, zz = ch[take], ground[take], z[take]
@@ -1038,7 +1047,7 @@ def _profile_checks(rows, lo, hi, ch, xy, ground, z, series, options, violations
         row = rows[sel[m]]
         rid = row["reach_id"]
         a, b = int(seg0[m]), int(seg0[m] + cnt[m])
-        pt = (lambda k: xy[k + a] if take is None else xy[take[k + a]])
+        pt = (lambda k: xy[base + k + a] if take is None else xy[take[k + a]])
         cc = c[a:b]
         if deep_any[m]:
             k = int(np.argmax(depth[a:b]))
