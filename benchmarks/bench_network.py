@@ -5,7 +5,7 @@ Invented irregular fields (5-80 ha, as in bench_layout.py) are laid out at 18 m
 spacing once per size (not timed); then the timed part builds the network — sub-mains
 for cut-off pieces, the trunk from every field's main to the nearest of one outlet
 point per 100 fields — and designs it (flows, vertical design from the outlets up on
-surveyed ground sampled through scipy's LinearNDInterpolator, sizes, checks,
+surveyed ground sampled through drainplan.terrain.PointSurface, sizes, checks,
 take-off). The machine's load average is recorded beside each figure. The process
 runs as the CLI does: one BLAS thread and the C library's allocator keeping freed
 memory (``drainplan.cli.tune_allocator``).
