@@ -43,8 +43,9 @@ def _cmap():
 
 
 def covered(ch):
-    """Whether the sheet font has a glyph for the character."""
-    return ord(ch) in _cmap()
+    """Whether the sheet font has a glyph for the character (printable ASCII without
+    opening the font: DejaVu Sans has all of it)."""
+    return " " <= ch <= "~" or ord(ch) in _cmap()
 
 
 def _strip_controls(text):

@@ -44,9 +44,14 @@ _K_KEYS = ("k", "k_above", "k_below", "k_vertical")
 
 
 def _z(p):
-    from scipy.special import ndtri
+    """Standard normal quantile of probability ``p`` (Python's ``statistics.NormalDist``,
+    Wichura's AS 241 algorithm, to double precision)."""
+    from statistics import NormalDist
 
-    return float(ndtri(p))
+    p = float(p)
+    if not 0.0 < p < 1.0:             # the limits, as scipy.special.ndtri gives them
+        return -math.inf if p == 0.0 else math.inf if p == 1.0 else math.nan
+    return NormalDist().inv_cdf(p)
 
 
 @dataclass(frozen=True)

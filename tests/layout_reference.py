@@ -1,6 +1,7 @@
 """The previous layout implementation (one Python pass per field for the mains),
 kept unchanged as the reference that the vectorised :mod:`drainplan.geometry.layout`
-must reproduce (tests/test_layout_reference.py). Not used by the package.
+must reproduce (tests/test_layout_reference.py), with the scan line and its
+crossings as they were. Not used by the package.
 """
 
 from __future__ import annotations
@@ -13,8 +14,7 @@ from shapely.ops import substring
 
 from drainplan.errors import InputError
 from drainplan.geometry.fields import drainable_regions, long_axis_bearing
-from drainplan.geometry.laterals import (LateralSet, edge_crossings, frame_axes, polygon_edges,
-                                        scan_laterals)
+from drainplan.geometry.laterals import LateralSet, LineGrid, frame_axes, polygon_edges
 
 
 #: Compass names accepted for the main's side, as bearings in degrees.
@@ -561,3 +561,90 @@ def _connect(pieces, grid, mains, fields, zones, features, cross_setbacks):
     tm_out = np.where(has_main, tm, np.nan)
     return pieces, side, tm_out, connected, con_geoms, con_field, con_run
 
+
+# --- the scan line and its crossings as they were -----------------------------------
+
+def scan_laterals(polygons, bearing, spacing, *, offset=None, n_fields=None):
+    """The scan line as it was (laterals.scan_laterals)."""
+    polygons = np.asarray(polygons, dtype=object).ravel()
+    n = polygons.size if n_fields is None else n_fields
+    bearing = np.broadcast_to(np.asarray(bearing, float), (n,))
+    spacing = np.broadcast_to(np.asarray(spacing, float), (n,))
+    u, v = frame_axes(bearing)
+    a, b, owner = polygon_edges(polygons)
+    empty = LateralSet(*(np.empty(0, int),) * 2, *(np.empty(0),) * 3,
+                       np.empty((0, 2)), np.empty((0, 2)))
+    if owner.size == 0:
+        return empty, LineGrid(u, v, np.zeros(n), spacing, np.zeros(n, int))
+    s_min, s_max = _extent_across(a, b, owner, v, n)
+    width = np.where(np.isfinite(s_min), s_max - s_min, 0.0)
+    if offset is None:
+        n_lines = np.maximum(1, np.ceil(width / spacing - 1e-9)).astype(int)
+        s0 = s_min + (width - (n_lines - 1) * spacing) / 2.0
+    else:
+        off = np.broadcast_to(np.asarray(offset, float), (n,))
+        n_lines = (np.floor((width - off) / spacing + 1e-9) + 1).astype(int)
+        s0 = s_min + off
+    n_lines = np.where(np.isfinite(s_min), np.maximum(n_lines, 0), 0)
+    grid = LineGrid(u, v, s0, spacing, n_lines)
+    f, k, s_line, t = edge_crossings(a, b, owner, grid)
+    if f.size == 0:
+        return empty, grid
+    gline = grid.line_base[f] + k
+    order = np.lexsort((t, gline))
+    t, gline, f, k, s_line = t[order], gline[order], f[order], k[order], s_line[order]
+    # pair consecutive crossings on each line (even-odd); an odd count can only
+    # come from a degenerate ring and is dropped for that line
+    first = np.r_[True, gline[1:] != gline[:-1]]
+    idx_in_line = np.arange(gline.size) - np.maximum.accumulate(
+        np.where(first, np.arange(gline.size), 0))
+    counts_line = np.bincount(gline, minlength=int(n_lines.sum()))
+    even_line = counts_line[gline] % 2 == 0
+    is_start = (idx_in_line % 2 == 0) & even_line
+    i0 = np.flatnonzero(is_start)
+    i1 = i0 + 1
+    t0, t1 = t[i0], t[i1]
+    keep = t1 > t0
+    i0, t0, t1 = i0[keep], t0[keep], t1[keep]
+    fi, si = f[i0], s_line[i0]
+    start = si[:, None] * v[fi] + t0[:, None] * u[fi]
+    end = si[:, None] * v[fi] + t1[:, None] * u[fi]
+    return LateralSet(fi, k[i0], si, t0, t1, start, end), grid
+
+
+def _extent_across(a, b, owner, v, n):
+    va = v[owner]
+    lo = np.minimum(np.einsum("ij,ij->i", a, va), np.einsum("ij,ij->i", b, va))
+    hi = np.maximum(np.einsum("ij,ij->i", a, va), np.einsum("ij,ij->i", b, va))
+    s_min = np.full(n, np.inf)
+    s_max = np.full(n, -np.inf)
+    np.minimum.at(s_min, owner, lo)
+    np.maximum.at(s_max, owner, hi)
+    return s_min, s_max
+
+
+def edge_crossings(a, b, owner, grid):
+    """Crossings of edges with the scan lines, as it was (laterals.edge_crossings)."""
+    u, v = grid.u[owner], grid.v[owner]
+    sa = np.einsum("ij,ij->i", a, v)
+    sb = np.einsum("ij,ij->i", b, v)
+    ta = np.einsum("ij,ij->i", a, u)
+    tb = np.einsum("ij,ij->i", b, u)
+    lo = np.minimum(sa, sb)
+    hi = np.maximum(sa, sb)
+    L = grid.spacing[owner]
+    s0 = grid.s0[owner]
+    k_lo = np.maximum(np.ceil((lo - s0) / L).astype(np.int64), 0)
+    k_hi = np.minimum(np.ceil((hi - s0) / L).astype(np.int64) - 1, grid.n_lines[owner] - 1)
+    count = np.maximum(k_hi - k_lo + 1, 0)
+    total = int(count.sum())
+    if total == 0:
+        return np.empty(0, int), np.empty(0, int), np.empty(0), np.empty(0)
+    e = np.repeat(np.arange(owner.size), count)
+    k = k_lo[e] + (np.arange(total) - np.repeat(np.cumsum(count) - count, count))
+    f = owner[e]
+    s_line = grid.s0[f] + k * grid.spacing[f]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        frac = (s_line - sa[e]) / (sb[e] - sa[e])
+    t = ta[e] + frac * (tb[e] - ta[e])
+    return f, k, s_line, t

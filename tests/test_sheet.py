@@ -499,6 +499,15 @@ def test_site_name_scripts(name, ok):
             check_text(name, "site.name")
 
 
+def test_printable_ascii_is_in_the_sheet_font():
+    """The shortcut that passes printable ASCII without opening the font holds: the
+    sheet font's own character map (read with fontTools) has every character from
+    space to tilde."""
+    from drainplan._text import _cmap
+
+    assert all(c in _cmap() for c in range(0x20, 0x7F))
+
+
 def test_control_characters_and_file_names():
     from drainplan._text import check_text, sheet_text
 

@@ -171,3 +171,16 @@ def test_bad_distributions():
         Triangular(0.04, 0.1, 0.08)
     with pytest.raises(InputError):
         Lognormal(-1.0, 0.5)
+
+
+def test_normal_quantile_matches_scipy():
+    """The standard normal quantile drainplan uses (Python's statistics.NormalDist)
+    equals scipy.special.ndtri (reference library) to 1e-14, limits included."""
+    from scipy.special import ndtri
+
+    from drainplan.uncertainty import _z
+
+    p = np.r_[1e-12, 1e-6, np.linspace(0.001, 0.999, 999), 1 - 1e-6, 1 - 1e-12]
+    got = np.array([_z(x) for x in p])
+    np.testing.assert_allclose(got, ndtri(p), rtol=1e-14, atol=1e-14)
+    assert _z(0.0) == -np.inf and _z(1.0) == np.inf and np.isnan(_z(1.5))

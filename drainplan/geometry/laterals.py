@@ -18,8 +18,8 @@ from dataclasses import dataclass
 import numpy as np
 import shapely
 
-__all__ = ["LateralSet", "LineGrid", "frame_axes", "polygon_edges", "scan_laterals",
-           "edge_crossings", "order_by_group"]
+__all__ = ["LateralSet", "LineGrid", "frame_axes", "polygon_parts", "polygon_edges",
+           "scan_laterals", "edge_crossings", "order_by_group"]
 
 
 @dataclass(frozen=True)
@@ -76,16 +76,25 @@ def frame_axes(bearing_deg):
     return u, v
 
 
+def polygon_parts(polygons):
+    """The polygons of an array of (multi)polygons, and the index of the geometry
+    each comes from (other parts left out); the polygons themselves where there is
+    no multipolygon."""
+    polygons = np.asarray(polygons, dtype=object).ravel()
+    if np.all(shapely.get_type_id(polygons) == 3):
+        return polygons, np.arange(polygons.size)
+    parts, part_owner = shapely.get_parts(polygons, return_index=True)
+    is_polygon = shapely.get_type_id(parts) == 3
+    return parts[is_polygon], part_owner[is_polygon]
+
+
 def polygon_edges(polygons):
     """All ring edges of an array of (multi)polygons.
 
     Returns ``(a, b, owner)``: edge start and end points, shape (m, 2), and the
     index of the polygon each edge belongs to.
     """
-    polygons = np.asarray(polygons, dtype=object)
-    parts, part_owner = shapely.get_parts(polygons, return_index=True)
-    is_polygon = shapely.get_type_id(parts) == 3
-    parts, part_owner = parts[is_polygon], part_owner[is_polygon]
+    parts, part_owner = polygon_parts(polygons)
     rings, ring_part = shapely.get_rings(parts, return_index=True)
     coords, ring_of_coord = shapely.get_coordinates(rings, return_index=True)
     same = ring_of_coord[:-1] == ring_of_coord[1:]
@@ -239,11 +248,13 @@ def _extent_across(a, b, owner, v, n):
     return s_min, s_max
 
 
-def edge_crossings(a, b, owner, grid):
+def edge_crossings(a, b, owner, grid, *, return_edge=False):
     """Crossings of edges (a -> b, owned by field ``owner``) with the scan lines.
 
     Returns ``(field, k, s, t)``: field index, line index within the field, the
-    line's s and the crossing's t, one entry per crossing (half-open rule).
+    line's s and the crossing's t, one entry per crossing (half-open rule); with
+    ``return_edge`` also the index of the edge crossed and the fraction of the
+    way from its a to its b.
     """
     u, v = grid.u[owner], grid.v[owner]
     sa = np.einsum("ij,ij->i", a, v)
@@ -254,12 +265,17 @@ def edge_crossings(a, b, owner, grid):
     hi = np.maximum(sa, sb)
     L = grid.spacing[owner]
     s0 = grid.s0[owner]
-    k_lo = np.maximum(np.ceil((lo - s0) / L).astype(np.int64), 0)
-    k_hi = np.minimum(np.ceil((hi - s0) / L).astype(np.int64) - 1, grid.n_lines[owner] - 1)
-    count = np.maximum(k_hi - k_lo + 1, 0)
+    # (a field without scan lines has no s0: its edges cross nothing)
+    lines = (grid.n_lines[owner] > 0) & np.isfinite(s0) & np.isfinite(lo) & np.isfinite(hi)
+    lo_k = np.where(lines, np.ceil((lo - s0) / L), 0.0)
+    hi_k = np.where(lines, np.ceil((hi - s0) / L), 0.0)
+    k_lo = np.maximum(lo_k.astype(np.int64), 0)
+    k_hi = np.minimum(hi_k.astype(np.int64) - 1, grid.n_lines[owner] - 1)
+    count = np.where(lines, np.maximum(k_hi - k_lo + 1, 0), 0)
     total = int(count.sum())
     if total == 0:
-        return np.empty(0, int), np.empty(0, int), np.empty(0), np.empty(0)
+        none = np.empty(0, int), np.empty(0, int), np.empty(0), np.empty(0)
+        return none + (np.empty(0, int), np.empty(0)) if return_edge else none
     e = np.repeat(np.arange(owner.size), count)
     k = k_lo[e] + (np.arange(total) - np.repeat(np.cumsum(count) - count, count))
     f = owner[e]
@@ -267,4 +283,6 @@ def edge_crossings(a, b, owner, grid):
     with np.errstate(invalid="ignore", divide="ignore"):
         frac = (s_line - sa[e]) / (sb[e] - sa[e])
     t = ta[e] + frac * (tb[e] - ta[e])
+    if return_edge:
+        return f, k, s_line, t, e, frac
     return f, k, s_line, t

@@ -21,7 +21,7 @@ import shapely
 from ..errors import InputError
 from .fields import drainable_regions, long_axis_bearing
 from .laterals import (LateralSet, edge_crossings, frame_axes, order_by_group, polygon_edges,
-                       scan_laterals)
+                       polygon_parts, scan_laterals)
 
 __all__ = ["LayoutOptions", "Layout", "layout_fields", "COMPASS"]
 
@@ -140,7 +140,8 @@ class Layout:
             "main_length_m": main_len,
             "field_area_ha": area / 1e4,
             "drained_area_ha": np.minimum(lat_len * self.spacing, area) / 1e4,
-            "drain_density_m_per_ha": np.where(area > 0, lat_len / (area / 1e4), 0.0),
+            "drain_density_m_per_ha": np.divide(lat_len, area / 1e4, out=np.zeros(n),
+                                                where=area > 0),
             "dropped_pieces": self.dropped_count.astype(int),
             "dropped_length_m": self.dropped_length,
             "unconnected_pieces": cnt(self.unconnected_field).astype(int),
@@ -211,9 +212,7 @@ def _main_chains(polys, u, v, low_side):
     out = np.full(n, None, dtype=object)
     if n == 0:
         return out
-    parts, owner = shapely.get_parts(polys, return_index=True)
-    is_poly = shapely.get_type_id(parts) == 3
-    parts, owner = parts[is_poly], owner[is_poly]
+    parts, owner = polygon_parts(polys)
     if parts.size == 0:
         return out
     # the largest part of each polygon (the first of equal ones)
@@ -314,9 +313,19 @@ def _main_chains(polys, u, v, low_side):
     return out
 
 
+def _per_field(outlet, which):
+    """The outlet of the fields ``which``: one point for all, or one per field."""
+    if outlet is None or np.ndim(outlet) < 2:
+        return outlet
+    return np.asarray(outlet, float)[which]
+
+
 def _low_sides(bearing, side, fields, outlet, low_end):
-    """Per field, True when the main goes at the low-t end of the laterals (-u):
-    :func:`_side_is_low` for all fields at once, or ``low_end`` where given."""
+    """Per field, True when the main goes at the low-t end of the laterals (-u).
+
+    ``side`` "auto": the end towards the outlet (from the field's centroid), the
+    low-t end without an outlet, or ``low_end`` where given (per field, None for
+    no choice); a compass direction: the end facing it. All fields at once."""
     n = bearing.size
     u, _ = frame_axes(bearing)
     if side != "auto":
@@ -338,9 +347,12 @@ def _low_sides(bearing, side, fields, outlet, low_end):
     return low
 
 
-def _trim_mains(mains, junctions, jfield, outlet):
+def _trim_mains(mains, junctions, jfield, along, outlet):
     """Trim each field's main to the stretch between its first and last junction and
     orient it towards the outlet (downstream end last).
+
+    ``along`` tells roughly how far along its main each junction lies: it picks the
+    first and last junction of each main, whose positions GEOS then gives exactly.
 
     Returns the trimmed mains (None where a field has no junction or a single
     junction point) and the outlet points (the downstream end, or the junction
@@ -355,18 +367,26 @@ def _trim_mains(mains, junctions, jfield, outlet):
     # junctions grouped by field (they come sorted); positions along their field's main
     if np.any(jfield[1:] < jfield[:-1]):
         by_field = np.argsort(jfield, kind="stable")
-        jfield, junctions = jfield[by_field], junctions[by_field]
+        jfield, junctions, along = jfield[by_field], junctions[by_field], along[by_field]
     jm = has_main[jfield]
-    jf, jp = jfield[jm], junctions[jm]
+    jf, jp, along = jfield[jm], junctions[jm], along[jm]
     if jf.size == 0:
         return new, outlets
-    pos = shapely.line_locate_point(mains[jf].astype(object), jp)
     starts = np.flatnonzero(np.r_[True, jf[1:] != jf[:-1]])
+    ends = np.r_[starts[1:], jf.size] - 1
     fids = jf[starts]
-    lo = np.minimum.reduceat(pos, starts)
-    hi = np.maximum.reduceat(pos, starts)
     first_junction = jp[starts]
+    if not np.all(np.isfinite(along)):
+        along = shapely.line_locate_point(mains[jf].astype(object), jp)
+    size = ends - starts + 1
+    # the first and last junction of each main (the first of equals)
+    at = np.flatnonzero(along == np.repeat(np.minimum.reduceat(along, starts), size))
+    first_on_main = at[np.searchsorted(at, starts)]
+    at = np.flatnonzero(along == np.repeat(np.maximum.reduceat(along, starts), size))
+    last_on_main = at[np.searchsorted(at, starts)]
     line = mains[fids].astype(object)
+    lo = shapely.line_locate_point(line, jp[first_on_main])
+    hi = shapely.line_locate_point(line, jp[last_on_main])
     # the stretch between lo and hi: the two interpolated ends and the vertices
     # strictly between them (as shapely.ops.substring)
     trim = hi > lo
@@ -421,48 +441,47 @@ def _trim_mains(mains, junctions, jfield, outlet):
     return new, outlets
 
 
-def _center_line(poly, bearing):
-    """Line along ``bearing`` through the centroid of a polygon, clipped to it (the
-    longest piece), as the main of a herringbone."""
-    if poly is None or shapely.is_empty(poly):
-        return None
-    u, _ = frame_axes(bearing)
-    c = np.asarray(shapely.centroid(poly).coords[0])
-    x0, y0, x1, y1 = poly.bounds
-    r = 2.0 * np.hypot(x1 - x0, y1 - y0) + 1.0
-    line = shapely.LineString([c - r * u, c + r * u])
-    parts = shapely.get_parts(shapely.intersection(line, poly))
-    parts = parts[shapely.get_type_id(parts) == 1]
+def _center_lines(polys, bearing):
+    """Per polygon, the line along its bearing through its centroid, clipped to it
+    (the longest piece), as the main of a herringbone; None for an empty polygon or
+    where the line misses it. All polygons at once."""
+    polys = np.asarray(polys, dtype=object)
+    out = np.full(polys.size, None, dtype=object)
+    idx = np.flatnonzero(~(shapely.is_missing(polys) | shapely.is_empty(polys)))
+    if idx.size == 0:
+        return out
+    u, _ = frame_axes(bearing[idx])
+    c = shapely.get_coordinates(shapely.centroid(polys[idx]))
+    box = shapely.bounds(polys[idx])
+    r = (2.0 * np.hypot(box[:, 2] - box[:, 0], box[:, 3] - box[:, 1]) + 1.0)[:, None]
+    lines = shapely.linestrings(np.stack([c - r * u, c + r * u], axis=1))
+    parts, owner = shapely.get_parts(shapely.intersection(lines, polys[idx]),
+                                     return_index=True)
+    keep = shapely.get_type_id(parts) == 1
+    parts, owner = parts[keep], owner[keep]
     if parts.size == 0:
-        return None
-    return parts[np.argmax(shapely.length(parts))]
-
-
-def _halves(region, center, bearing):
-    """The parts of ``region`` on the right (+1) and left (-1) of the main's line."""
-    u, v = frame_axes(bearing)
-    c = np.asarray(center.coords[0])
-    x0, y0, x1, y1 = region.bounds if not shapely.is_empty(region) else center.bounds
-    r = 2.0 * np.hypot(x1 - x0, y1 - y0) + np.hypot(*(c - (x0, y0))) + 1.0
-    out = []
-    for sign in (1, -1):
-        plane = shapely.Polygon([c - r * u, c + r * u, c + r * u + sign * r * v,
-                                 c - r * u + sign * r * v])
-        out.append((sign, shapely.intersection(region, plane)))
+        return out
+    order = np.lexsort((-shapely.length(parts), owner))      # the longest, the first of equal
+    first = order[np.r_[True, owner[order][1:] != owner[order][:-1]]]
+    out[idx[owner[first]]] = parts[first]
     return out
 
 
-def _side_is_low(bearing, side, field_geom, outlet):
-    """True when the main goes at the low-t end of the laterals (direction -u)."""
-    u, _ = frame_axes(bearing)
-    if side == "auto":
-        if outlet is None:
-            return True
-        c = np.asarray(shapely.centroid(field_geom).coords[0])
-        return float((np.asarray(outlet) - c) @ u) < 0
-    want = np.radians(COMPASS[side])
-    w = np.array([np.sin(want), np.cos(want)])
-    return float(w @ u) < 0
+def _halves(regions, centers, bearing):
+    """The parts of each region on the right (+1) and left (-1) of its main's line,
+    as two arrays (all regions at once)."""
+    u, v = frame_axes(bearing)
+    c = shapely.get_coordinates(shapely.get_point(centers, 0))
+    box = np.where(shapely.is_empty(regions)[:, None], shapely.bounds(centers),
+                   shapely.bounds(regions))
+    r = (2.0 * np.hypot(box[:, 2] - box[:, 0], box[:, 3] - box[:, 1])
+         + np.hypot(c[:, 0] - box[:, 0], c[:, 1] - box[:, 1]) + 1.0)[:, None]
+    out = []
+    for sign in (1, -1):
+        plane = shapely.polygons(np.stack([c - r * u, c + r * u, c + r * u + sign * r * v,
+                                           c - r * u + sign * r * v], axis=1))
+        out.append(shapely.intersection(regions, plane))
+    return out
 
 
 def layout_fields(fields, options, *, exclusions=None, exclusion_setbacks=None,
@@ -498,11 +517,6 @@ def layout_fields(fields, options, *, exclusions=None, exclusion_setbacks=None,
     """
     fields = np.asarray(fields, dtype=object)
     n = fields.size
-    outlet_all = outlet
-    if outlet is not None and np.ndim(outlet) == 2:
-        outlet_of = lambda f: outlet_all[f]  # noqa: E731
-    else:
-        outlet_of = lambda f: outlet_all  # noqa: E731
     if options.pattern not in ("parallel", "herringbone"):
         raise InputError(f"pattern {options.pattern!r} is unknown; choose parallel or "
                          "herringbone", param="pattern")
@@ -543,26 +557,25 @@ def layout_fields(fields, options, *, exclusions=None, exclusion_setbacks=None,
     user = np.asarray(user_mains, dtype=object) if user_mains is not None \
         else np.full(n, None, dtype=object)
     if options.pattern == "herringbone":
-        sub_owner, sub_region, sub_bearing, sub_main = [], [], [], []
-        for f in np.flatnonzero(present):
-            center = user[f] if user[f] is not None else _center_line(insets[f], bearing[f])
-            mains[f] = center
-            if center is None:
-                continue
-            # laterals leave the main pointing upstream (away from the outlet), so each
-            # joins the main at an angle in the direction of flow
-            upstream = -1.0 if _side_is_low(bearing[f], "auto", fields_filled[f],
-                                            outlet_of(f)) is False else 1.0
-            for sign, half in _halves(regions[f], center, bearing[f]):
-                sub_owner.append(f)
-                sub_region.append(half)
-                sub_bearing.append((bearing[f] + sign * upstream * options.herringbone_angle)
-                                   % 180.0)
-                sub_main.append(center)
-        sub_owner = np.array(sub_owner, dtype=int)
-        sub_region = np.array(sub_region + [None], dtype=object)[:sub_owner.size]
-        sub_main = np.array(sub_main + [None], dtype=object)[:sub_owner.size]
-        sub_bearing = np.array(sub_bearing, dtype=float)
+        # a main through the middle of each field (or the drawn one)
+        hb = np.flatnonzero(present)
+        drawn = np.array([g is not None for g in user[hb]], bool)
+        centers = np.where(drawn, user[hb], None)
+        centers[~drawn] = _center_lines(insets[hb[~drawn]], bearing[hb[~drawn]])
+        mains[hb] = centers
+        has = np.array([g is not None for g in centers], bool)
+        hb, centers = hb[has], centers[has].astype(object)
+        # laterals leave the main pointing upstream (away from the outlet), so each
+        # joins the main at an angle in the direction of flow
+        upstream = np.where(_low_sides(bearing[hb], "auto", fields_filled[hb], _per_field(
+            outlet, hb), None), 1.0, -1.0)
+        right, left = _halves(regions[hb], centers, bearing[hb])
+        sign = np.tile([1, -1], hb.size)
+        sub_owner = np.repeat(hb, 2)
+        sub_region = np.stack([right, left], axis=1).ravel()
+        sub_main = np.repeat(centers, 2)
+        sub_bearing = (bearing[sub_owner] + sign * np.repeat(upstream, 2)
+                       * options.herringbone_angle) % 180.0
     else:
         # the edge main of every field without a drawn one, all fields at once
         drawn = present & np.array([g is not None for g in user], bool)
@@ -570,9 +583,7 @@ def layout_fields(fields, options, *, exclusions=None, exclusion_setbacks=None,
         mains[drawn] = user[drawn]
         if np.any(edge):
             low = _low_sides(bearing[edge], options.main_side, fields_filled[edge],
-                             outlet if outlet is None or np.ndim(outlet) < 2
-                             else np.asarray(outlet, float)[edge],
-                             None if low_end is None
+                             _per_field(outlet, edge), None if low_end is None
                              else np.asarray(low_end, dtype=object)[edge])
             mains[edge] = _main_chains(insets[edge], u_all[edge], v_all[edge], low)
         sub_owner = np.flatnonzero(present)
@@ -593,7 +604,7 @@ def layout_fields(fields, options, *, exclusions=None, exclusion_setbacks=None,
 
     conn = _connect(pieces, grid, sub_main, fields_filled[sub_owner], zones[sub_owner],
                     features[sub_owner], options.cross_setbacks)
-    lat, side, t_main, connected, connectors, con_sub, con_run = conn
+    lat, side, t_main, connected, connectors, con_sub, con_run, along_line = conn
     unconnected = lat.subset(~connected)
     lat = lat.subset(connected)
     side = side[connected]
@@ -608,11 +619,13 @@ def layout_fields(fields, options, *, exclusions=None, exclusion_setbacks=None,
     # junctions: one per lateral run (field, line, side)
     junctions = np.empty(0, dtype=object)
     jfield = jline = jside = np.empty(0, int)
+    j_along = np.empty(0)
     if lat.field.size:
         first = _first_of_runs(lat.field, lat.line, side)
         js = lat.field[first]
         jp = lat.s[first][:, None] * grid.v[js] + t_m[first][:, None] * grid.u[js]
         junctions = shapely.points(jp)
+        j_along = along_line[grid.line_base[js] + lat.line[first]]
         jfield = sub_owner[js]
         jline = lat.line[first] + line_offset[js]
         jside = side[first]
@@ -622,7 +635,7 @@ def layout_fields(fields, options, *, exclusions=None, exclusion_setbacks=None,
     con_line = con_run[0] + line_offset[con_sub] if con_sub.size else con_run[0]
 
     # trim each main to its junctions, orient it towards the outlet
-    mains, outlets = _trim_mains(mains, junctions, jfield, outlet)
+    mains, outlets = _trim_mains(mains, junctions, jfield, j_along, outlet)
     if np.any(connected == 0):
         notes.append(f"{int((~connected).sum())} lateral piece(s) cannot reach the main "
                      "without leaving the field or crossing an exclusion; they need a "
@@ -647,8 +660,9 @@ def _connect(pieces, grid, mains, fields, zones, features, cross_setbacks):
     """Join lateral pieces to the main along their lines.
 
     Returns the (possibly split) pieces, their side of the main (-1, +1), the
-    main's t on their line, a connected flag, the connector geometries and
-    their field index.
+    main's t on their line, a connected flag, the connector geometries, their
+    field index and their (line, side), and per scan line roughly how far along
+    the main it crosses it [m] (NaN where it does not).
     """
     # crossing of every scan line with its field's main
     mains = np.asarray(mains, dtype=object)
@@ -656,15 +670,27 @@ def _connect(pieces, grid, mains, fields, zones, features, cross_setbacks):
     c, ci = shapely.get_coordinates(mains[has_main], return_index=True)
     seg = np.flatnonzero(ci[1:] == ci[:-1])           # segments of the mains, in order
     t_main_line = np.full(int(grid.n_lines.sum()), np.nan)
+    along_main_line = np.full(int(grid.n_lines.sum()), np.nan)
     if seg.size:
-        mf, mk, _, mt = edge_crossings(c[seg], c[seg + 1], has_main[ci[seg]], grid)
+        mf, mk, _, mt, me, mfrac = edge_crossings(c[seg], c[seg + 1], has_main[ci[seg]],
+                                                  grid, return_edge=True)
         g = grid.line_base[mf] + mk
         # several crossings on one line: keep the one nearest the field's lowest t
-        order = np.lexsort((mt, g))
+        order = order_by_group(g, mt)
         g, mt = g[order], mt[order]
         # (a main that crosses no scan line, e.g. along a short cut corner, gives none)
         firsts = np.r_[True, g[1:] != g[:-1]] if g.size else np.zeros(0, bool)
         t_main_line[g[firsts]] = mt[firsts]
+        # and roughly how far along the main the crossing lies (to find each main's
+        # first and last junction)
+        d = c[seg + 1] - c[seg]
+        seg_len = np.hypot(d[:, 0], d[:, 1])
+        run = np.cumsum(seg_len)
+        main_start = np.r_[True, ci[seg][1:] != ci[seg][:-1]]
+        before = run - seg_len
+        before -= before[np.maximum.accumulate(np.where(main_start, np.arange(seg.size), 0))]
+        along = before[me] + mfrac * seg_len[me]
+        along_main_line[g[firsts]] = along[order][firsts]
     gl = grid.line_base[pieces.field] + pieces.line if pieces.field.size else np.empty(0, int)
     tm = t_main_line[gl] if pieces.field.size else np.empty(0)
 
@@ -687,7 +713,8 @@ def _connect(pieces, grid, mains, fields, zones, features, cross_setbacks):
     m = pieces.field.size
     if m == 0:
         return pieces, np.empty(0, int), np.empty(0), np.zeros(0, bool), \
-            np.empty(0, dtype=object), np.empty(0, int), (np.empty(0, int), np.empty(0, int))
+            np.empty(0, dtype=object), np.empty(0, int), (np.empty(0, int), np.empty(0, int)), \
+            along_main_line
     has_main = np.isfinite(tm)
     mid = 0.5 * (pieces.t0 + pieces.t1)
     side = np.where(mid < np.where(has_main, tm, np.inf), -1, 1)
@@ -740,5 +767,5 @@ def _connect(pieces, grid, mains, fields, zones, features, cross_setbacks):
         con_geoms, con_field = con_geoms[keep], con_field[keep]
         con_run = (con_line[keep], con_side[keep])
     tm_out = np.where(has_main, tm, np.nan)
-    return pieces, side, tm_out, connected, con_geoms, con_field, con_run
+    return pieces, side, tm_out, connected, con_geoms, con_field, con_run, along_main_line
 
