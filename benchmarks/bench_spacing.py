@@ -30,6 +30,7 @@ import json
 import math
 import os
 import platform
+import resource
 import subprocess
 import sys
 import time
@@ -190,12 +191,15 @@ def solve_and_floor(solve, floor, c, L, n, repeat):
     def run_floor(block):
         for s in range(0, n, block):
             floor(c, L, slice(s, s + block))
-    t_solve = t_floor = math.inf
+    t_floor = math.inf
+    times, faults = [], 0
     for _ in range(rounds(repeat, n)):
         for block in FLOOR_BLOCKS:
-            t_solve = min(t_solve, cpu_best(lambda: solve(c), 1))
+            f0 = resource.getrusage(resource.RUSAGE_SELF).ru_minflt
+            times.append(cpu_best(lambda: solve(c), 1))
+            faults += resource.getrusage(resource.RUSAGE_SELF).ru_minflt - f0
             t_floor = min(t_floor, cpu_best(lambda: run_floor(block), 1))
-    return t_solve, t_floor
+    return min(times), t_floor, float(np.median(times)), faults / len(times)
 
 
 def bench_methods(sizes, scalar_cases, repeat, only=None):
@@ -210,8 +214,9 @@ def bench_methods(sizes, scalar_cases, repeat, only=None):
         for n in sizes:
             c = practical_cases(n)
             L = solve(c)
-            t_solve, t_floor = solve_and_floor(solve, floor, c, L, n, repeat)
-            rows.append(dict(name=name, n=n, solve=t_solve, floor=t_floor,
+            t_solve, t_floor, median, faults = solve_and_floor(solve, floor, c, L, n, repeat)
+            rows.append(dict(name=name, n=n, solve=t_solve, floor=t_floor, median=median,
+                             faults=faults,
                              scalar=t_scalar * n, agree=agree, nan=int(np.isnan(L).sum()),
                              target=target, load=load()))
             print(f"{name:34s} {n:>9,} {n / t_solve:>12,.0f}/s  {t_solve / t_floor:5.2f}x floor"
@@ -289,22 +294,29 @@ def report(rows, startup, args):
              "cases and scaled. Inputs: seeded, practical range (K 0.05-5 m/d, q 1-10 mm/d, "
              "h 0.2-1 m, D 0.5-20 m, r 0.05-0.15 m). *load*: 1-minute load average when the "
              "row was measured (the machine is shared; 2.0 means both cores busy). "
+             "*median*: the median of the solver's runs; *fresh pages per call*: minor page "
+             "faults per solver call (memory the C library returned to the kernel and took "
+             "back). "
              "The allocator keeps freed memory as the command line sets it"
              + ("" if getattr(args, "tuned", False) else " (not available here)")
-             + ", except in the last row (the C library's default)."
+             + ", except in the last rows (the C library's default, as a program that "
+             "calls drainplan without `drainplan.cli.tune_allocator` has it)."
              + (f" The methods were measured in {args.runs} whole runs; each row is from the "
                 "run whose solver time was least (the least disturbed by other work), with "
-                "that run's floor and load." if args.runs > 1 else ""),
+                "that run's floor and load (the default allocator: one fresh process a "
+                "run)." if args.runs > 1 else ""),
              "",
              "| method | cases | drainplan | cases/s | vs floor | target | vs scalar loop "
-             "| largest difference from scalar | NaN | load |",
-             "| --- | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: |"]
+             "| largest difference from scalar | NaN | median | fresh pages per call | load |",
+             "| --- | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: "
+             "| ---: |"]
     for r in rows:
         tgt = f"<= {r['target']:.0f}x" if r["target"] else ">= 100x scalar"
         lines.append(
             f"| {r['name']} | {r['n']:,} | {r['solve'] * 1e3:.1f} ms | {r['n'] / r['solve']:,.0f}"
             f" | {r['solve'] / r['floor']:.2f}x | {tgt} | {r['scalar'] / r['solve']:,.0f}x "
-            f"| {r['agree']:.1e} m | {r['nan']} | {r['load']:.1f} |")
+            f"| {r['agree']:.1e} m | {r['nan']} | {r['median'] * 1e3:.1f} ms "
+            f"| {r['faults']:,.0f} | {r['load']:.1f} |")
     verdicts = []
     for name in dict.fromkeys(r["name"] for r in rows if r["target"]):
         rs = [r for r in rows if r["name"] == name]
@@ -329,7 +341,16 @@ def report(rows, startup, args):
               "series) weighs more against the floor's few operations. The previous "
               "implementation (bracketed Chandrupatla, blocks of 32,768) ran at 0.24-0.53 M "
               "cases/s for Hooghoudt and 7,000-12,000 cases/s for Kirkham on this machine "
-              "(issue 15)."]
+              "(issue 15).",
+              "", "The default allocator: glibc hands freed memory at the top of its heap back "
+              "to the kernel once more than its trim threshold (128 KiB until the process "
+              "has freed a large mapped array; then twice that array's size) is free, so a "
+              "call that leaves a megabyte of temporaries behind takes fresh, zeroed pages on "
+              "the next call (the page column). The command line avoids it "
+              "(`drainplan.cli.tune_allocator`); a program calling drainplan at 10,000-"
+              "100,000 cases per call does not, unless it sets the same thresholds "
+              "(`MALLOC_TRIM_THRESHOLD_` / `MALLOC_MMAP_THRESHOLD_` or `mallopt`) or has "
+              "already freed an array of a few megabytes."]
     srows, per_call, pint_loaded, mods, ld = startup
     lines2 = ["## Command-line start-up", "", head.replace("bench_spacing.py", "bench_spacing.py"),
               "", f"Wall time of a fresh process, best of {args.startup_repeat}; load average "
@@ -382,18 +403,23 @@ def main():
     args.scalar_cases = 300 if args.quick else 1500
     args.startup_repeat = 3 if args.quick else 7
     if args.default_allocator:
-        print(json.dumps(best_rows([bench_methods(sizes[-1:], args.scalar_cases, args.repeat,
-                                                  only=1) for _ in range(max(1, args.runs))])))
+        print(json.dumps(bench_methods(sizes, args.scalar_cases, args.repeat, only=1)))
         return
     from drainplan.cli import tune_allocator
 
     args.tuned = tune_allocator()
     rows = best_rows([bench_methods(sizes, args.scalar_cases, args.repeat)
                       for _ in range(max(1, args.runs))])
-    out = subprocess.run([sys.executable, __file__, "--default-allocator",
-                          f"--runs={args.runs}"] + (["--quick"] if args.quick else []),
-                         capture_output=True, text=True, check=True).stdout
-    for r in json.loads(out.strip().splitlines()[-1]):
+    # each run of the default allocator in a fresh process: glibc raises its thresholds
+    # for good once a process has freed a large array, and the figures would then be
+    # those of a tuned allocator
+    runs = []
+    for _ in range(max(1, args.runs)):
+        out = subprocess.run([sys.executable, __file__, "--default-allocator"]
+                             + (["--quick"] if args.quick else []),
+                             capture_output=True, text=True, check=True).stdout
+        runs.append(json.loads(out.strip().splitlines()[-1]))
+    for r in best_rows(runs):
         r["name"] += ", default allocator"
         rows.append(r)
     startup = bench_startup(args.startup_repeat)

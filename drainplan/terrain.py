@@ -87,22 +87,28 @@ class PointSurface:
             z[miss] = self.z[self._nearest.query(xy[miss])[1]]
         return z
 
-    def _linear(self, xy):
-        """Linear interpolation in the triangle holding each point (NaN outside)."""
+    def _linear(self, xy, block=65536):
+        """Linear interpolation in the triangle holding each point (NaN outside); the
+        triangles found in one pass, the weights in blocks of points (small
+        temporaries: large ones cost fresh memory pages on a busy machine)."""
         tri = self._tri
         s = tri.find_simplex(xy)
-        inside = s >= 0
-        si = s[inside]
-        t = tri.transform[si]                                 # (m, 3, 2): T^-1, r
-        dx, dy = xy[inside, 0] - t[:, 2, 0], xy[inside, 1] - t[:, 2, 1]
-        # barycentric weights and the weighted sum in scipy's order of operations
-        # (LinearNDInterpolator), so the numbers are the same to the last bit
-        c0 = t[:, 0, 0] * dx + t[:, 0, 1] * dy
-        c1 = t[:, 1, 0] * dx + t[:, 1, 1] * dy
-        c2 = (1.0 - c0) - c1
-        zv = self.z[tri.simplices[si]]
+        transform = tri.transform
         z = np.full(len(xy), np.nan)
-        z[inside] = (c0 * zv[:, 0] + c1 * zv[:, 1]) + c2 * zv[:, 2]
+        for a in range(0, len(xy), block):
+            sb = s[a:a + block]
+            inside = np.flatnonzero(sb >= 0)
+            si = sb[inside]
+            q = xy[a:a + block][inside]
+            t = transform[si]                                 # (m, 3, 2): T^-1, r
+            dx, dy = q[:, 0] - t[:, 2, 0], q[:, 1] - t[:, 2, 1]
+            # barycentric weights and the weighted sum in scipy's order of operations
+            # (LinearNDInterpolator), so the numbers are the same to the last bit
+            c0 = t[:, 0, 0] * dx + t[:, 0, 1] * dy
+            c1 = t[:, 1, 0] * dx + t[:, 1, 1] * dy
+            c2 = (1.0 - c0) - c1
+            zv = self.z[tri.simplices[si]]
+            z[a + inside] = (c0 * zv[:, 0] + c1 * zv[:, 1]) + c2 * zv[:, 2]
         return z
 
     def hull(self):

@@ -337,20 +337,12 @@ def _sample_lines(lines, extra_owner=None, extra_ch=None, chunk=200_000):
     return ch, xy, start, counts, length
 
 
-def _highest_invert(ch, cap, min_grade, max_grade=None):
-    """Highest invert z(ch) with z <= cap everywhere and z falling at least
-    ``min_grade`` towards increasing chainage: z_i = min_{j<=i} (cap_j + g c_j) - g c_i;
-    then, where the ground falls faster than ``max_grade``, the pipe is laid deeper
-    upstream so that it falls no faster: z_i <= min_{j>=i} (z_j + G c_j) - G c_i."""
-    z = np.minimum.accumulate(cap + min_grade * ch) - min_grade * ch
-    if max_grade is not None:
-        w = (z + max_grade * ch)[::-1]
-        z = np.minimum(z, np.minimum.accumulate(w)[::-1] - max_grade * ch)
-    return z
-
-
 def _highest_invert_many(ch, cap, start, counts, min_grade, max_grade=None):
-    """:func:`_highest_invert` of many pipes at once (padded blocks)."""
+    """Highest invert z(ch) of many pipes at once (padded blocks), each with z <= cap
+    everywhere and z falling at least ``min_grade`` towards increasing chainage:
+    z_i = min_{j<=i} (cap_j + g c_j) - g c_i; then, where the ground falls faster than
+    ``max_grade``, the pipe is laid deeper upstream so that it falls no faster:
+    z_i <= min_{j>=i} (z_j + G c_j) - G c_i."""
     out = np.empty(len(ch))
     for idx, width in _blocks(counts):
         c, valid, pos = _padded(ch, start, counts, idx, width, 0.0)
@@ -361,17 +353,6 @@ def _highest_invert_many(ch, cap, start, counts, min_grade, max_grade=None):
             z = np.minimum(z, np.minimum.accumulate(w, axis=1)[:, ::-1] - max_grade * c)
         out[pos[valid]] = z[valid]
     return out
-
-
-def _nearest_index(ch, x):
-    """Index of the sample of ``ch`` (sorted) nearest each ``x``; the first on a tie
-    (as ``argmin(abs(ch - x))``)."""
-    p = np.clip(np.searchsorted(ch, x), 1, len(ch) - 1) if len(ch) > 1 else \
-        np.zeros(len(x), np.int64)
-    if len(ch) < 2:
-        return p
-    left = np.abs(ch[p - 1] - x) <= np.abs(ch[p] - x)
-    return np.where(left, p - 1, p)
 
 
 def design_network(runs, carriers, options, *, surface=None, outlets=None):
@@ -482,16 +463,15 @@ def design_network(runs, carriers, options, *, surface=None, outlets=None):
     runs_into = _group(r_to[joined], joined, nc)
     cars_into = _group(c_to[inflow_order], inflow_order, nc)
 
-    # samples of every pipe; the ground sampled once for all of them
+    # samples of every pipe; the ground sampled once at each (laterals, then carriers)
     lat_ch, lat_xy, lat_start, lat_n, r_len = _sample_lines(r_line)
     ex_owner = np.r_[r_to[joined], c_to[inflow_order]]
     ex_ch = np.r_[run_jch[joined], car_jch[inflow_order]]
     car_ch, car_xy, car_start, car_n, c_len = _sample_lines(c_line, ex_owner, ex_ch)
     lat_ground = car_ground = None
     if surface is not None:
-        z = surface(np.vstack([lat_xy, car_xy])) if len(lat_xy) + len(car_xy) else \
-            np.empty(0)
-        lat_ground, car_ground = z[:len(lat_xy)], z[len(lat_xy):]
+        lat_ground = np.asarray(surface(lat_xy), float) if len(lat_xy) else np.zeros(0)
+        car_ground = np.asarray(surface(car_xy), float) if len(car_xy) else np.zeros(0)
     lat_last = lat_start + lat_n - 1
     car_last = car_start + car_n - 1
 
@@ -509,24 +489,47 @@ def design_network(runs, carriers, options, *, surface=None, outlets=None):
                                      lat_n, gmin, options.max_grade)
         lat_end_z = lat_z[lat_last] if nr else np.zeros(0)
         car_z = np.empty(len(car_ch))
-        for k in range(nc):
-            a, b = car_start[k], car_start[k] + car_n[k]
-            ch = car_ch[a:b]
-            jj = od_jch[k]
-            kk = np.searchsorted(jj, ch + 1e-6, side="right") - 1
-            od = np.where(kk >= 0, od_val[k][np.maximum(kk, 0)] if jj.size else 0.0, 0.0)
+        od_own = np.repeat(np.arange(nc), [len(j) for j in od_jch])
+        od_j = np.concatenate(od_jch) if nc else np.zeros(0)
+        od_v = np.concatenate(od_val) if nc else np.zeros(0)
+        od_start = np.searchsorted(od_own, np.arange(nc + 1))
+        rj = joined[np.argsort(r_to[joined], kind="stable")]
+        rj_to = r_to[rj]
+        cj = inflow_order[np.argsort(c_to[inflow_order], kind="stable")]
+        cj_to = c_to[cj]
+        lv = np.array([depth[c] for c in order], np.int64)
+        blocks = np.r_[0, np.flatnonzero(np.diff(lv)) + 1, nc] if nc else np.zeros(1, int)
+        for la, lb in zip(blocks[:-1], blocks[1:]):           # leaves first
+            s0, s1 = car_start[la], car_start[lb - 1] + car_n[lb - 1]
+            ch = car_ch[s0:s1]
+            cnt = car_n[la:lb]
+            st = car_start[la:lb] - s0
+            own = np.repeat(np.arange(lb - la), cnt)
+            span = float(ch.max(initial=0.0)) + 10.0
+            key = ch + span * own                  # increasing across the level's pipes
+            # outside diameter of the size each stretch needs (from its junctions on)
+            e0, e1 = od_start[la], od_start[lb]
+            eo = od_own[e0:e1] - la
+            pos = np.searchsorted(od_j[e0:e1] + span * eo, key + 1e-6, side="right") - 1
+            pc = np.maximum(pos, 0)
+            hit = (pos >= 0) & (eo[pc] == own) if e1 > e0 else np.zeros(len(ch), bool)
+            od = np.where(hit, od_v[e0:e1][pc] if e1 > e0 else 0.0, 0.0)
             # deep enough for the main depth and for the cover over the pipe its flow needs
-            cap = car_ground[a:b] - np.maximum(main_depth, options.min_cover + od)
+            cap = car_ground[s0:s1] - np.maximum(main_depth, options.min_cover + od)
             # inflows: the receiving invert at or below the joining invert
-            ri = runs_into[k]
-            if ri.size:
-                np.minimum.at(cap, _nearest_index(ch, run_jch[ri]), lat_end_z[ri])
-            ci = cars_into[k]
-            if ci.size:
-                np.minimum.at(cap, _nearest_index(ch, car_jch[ci]), end_z[ci])
-            zz = _highest_invert(ch, cap, gmin, options.max_grade)
-            car_z[a:b] = zz
-            end_z[k] = zz[-1]
+            for who, to, jch, zend in ((rj, rj_to, run_jch, lat_end_z if nr else None),
+                                       (cj, cj_to, car_jch, end_z)):
+                a, b = np.searchsorted(to, [la, lb])
+                if b > a:
+                    o = to[a:b] - la
+                    x = jch[who[a:b]]
+                    p = np.searchsorted(key, x + span * o)
+                    p = np.clip(p, st[o] + 1, st[o] + cnt[o] - 1)
+                    near = np.where(np.abs(ch[p - 1] - x) <= np.abs(ch[p] - x), p - 1, p)
+                    np.minimum.at(cap, near, zend[who[a:b]])
+            zz = _highest_invert_many(ch, cap, st, cnt, gmin, options.max_grade)
+            car_z[s0:s1] = zz
+            end_z[la:lb] = zz[st + cnt - 1]
 
     # ---- the outlets, then pass 2, outlet up: raised where the receiving water needs it
     outlet_rows = []
@@ -762,10 +765,6 @@ def design_network(runs, carriers, options, *, surface=None, outlets=None):
                                  "invert": np.concatenate([p[2] for p in parts])[o],
                                  "carriers": path}
     return design
-
-
-_ZERO = np.zeros(1)
-_NONE = np.full(1, -1, np.int64)
 
 
 def _cat(a, b):
@@ -1006,14 +1005,24 @@ def _profile_checks(rows, lo, hi, ch, xy, ground, z, series, options, violations
     pipes that have one."""
     lo, hi = np.asarray(lo, np.int64), np.asarray(hi, np.int64)
     sel = np.flatnonzero(hi - lo >= 2)
-    if not sel.size:
-        return
+    # in chunks of about 250,000 samples (small temporaries), in order
+    ends = np.searchsorted(np.cumsum(hi[sel] - lo[sel]),
+                           np.arange(250_000, int((hi[sel] - lo[sel]).sum()), 250_000))
+    for part in np.split(sel, np.unique(ends + 1)):
+        if part.size:
+            _profile_checks_block(rows, part, lo, hi, ch, xy, ground, z, series, options,
+                                  violations)
+
+
+def _profile_checks_block(rows, sel, lo, hi, ch, xy, ground, z, series, options,
+                          violations):
+    """:func:`_profile_checks` of the rows ``sel``."""
     cnt = hi[sel] - lo[sel]
     seg0 = np.concatenate(([0], np.cumsum(cnt)[:-1]))
-    if lo[sel[0]] == 0 and np.array_equal(lo[sel[1:]], hi[sel[:-1]]) and \
-            hi[sel[-1]] == len(ch):
-        take = None                               # the rows cover the samples in order
-        c, g, zz = ch, ground, z
+    if np.array_equal(lo[sel[1:]], hi[sel[:-1]]):
+        base = int(lo[sel[0]])                    # the rows' samples follow each other
+        take = None
+        c, g, zz = (v[base:int(hi[sel[-1]])] for v in (ch, ground, z))
     else:
         take = _ranges(lo[sel], hi[sel])
         c, g, zz = ch[take], ground[take], z[take]
@@ -1038,7 +1047,7 @@ def _profile_checks(rows, lo, hi, ch, xy, ground, z, series, options, violations
         row = rows[sel[m]]
         rid = row["reach_id"]
         a, b = int(seg0[m]), int(seg0[m] + cnt[m])
-        pt = (lambda k: xy[k + a] if take is None else xy[take[k + a]])
+        pt = (lambda k: xy[base + k + a] if take is None else xy[take[k + a]])
         cc = c[a:b]
         if deep_any[m]:
             k = int(np.argmax(depth[a:b]))

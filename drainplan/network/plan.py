@@ -130,34 +130,41 @@ def _carriers(fr, recv):
 
     out = []
 
-    def to_of(row):
-        v = row.get("to_id")
-        return str(v) if v is not None and str(v) not in ("", "nan", "None") else None
+    def col(df, name):
+        return df[name].tolist() if name in df.columns else [None] * len(df)
 
-    def own_outlet(line, default):
-        end = shapely.Point(line.coords[-1])
-        for oid, xy in recv.items():
-            if end.distance(shapely.Point(xy)) < 1.0:
-                return oid
-        return default
+    def to_of(v):
+        return str(v) if v is not None and str(v) not in ("", "nan", "None") else None
 
     sm = fr.get("submains")
     if sm is not None and len(sm):
-        for _, r in sm.iterrows():
-            out.append(Carrier(str(r["submain_id"]), "submain", str(r["field_id"]),
-                               _line(r.geometry), to_of(r)))
-    for _, r in fr["mains"].iterrows():
-        fid = str(r["field_id"])
-        line = _line(r.geometry)
-        cid = str(r["main_id"]) if "main_id" in r else f"{fid}-M"
-        to = to_of(r)
-        out.append(Carrier(cid, "main", fid, line, to,
-                           own_outlet(line, f"{fid} main end") if to is None else ""))
+        for cid, fid, g, to in zip(col(sm, "submain_id"), col(sm, "field_id"), sm.geometry,
+                                   col(sm, "to_id")):
+            out.append(Carrier(str(cid), "submain", str(fid), _line(g), to_of(to)))
+    mains = fr["mains"]
+    lines = [_line(g) for g in mains.geometry]
+    # the outlet point (if any) within 1 m of each main's end, the first given
+    own = [None] * len(lines)
+    if recv and lines:
+        ends = shapely.points([ln.coords[-1] for ln in lines])
+        for oid, xy in recv.items():
+            near = shapely.distance(ends, shapely.Point(xy)) < 1.0
+            for k in np.flatnonzero(near):
+                if own[k] is None:
+                    own[k] = oid
+    has_id = "main_id" in mains.columns
+    for k, (fid, mid, to) in enumerate(zip(col(mains, "field_id"), col(mains, "main_id"),
+                                           col(mains, "to_id"))):
+        fid = str(fid)
+        cid = str(mid) if has_id else f"{fid}-M"
+        to = to_of(to)
+        out.append(Carrier(cid, "main", fid, lines[k], to,
+                           (own[k] or f"{fid} main end") if to is None else ""))
     tr = fr.get("trunk")
     if tr is not None and len(tr):
-        for _, r in tr.iterrows():
-            out.append(Carrier(str(r["trunk_id"]), "trunk", "", _line(r.geometry), to_of(r),
-                               str(r.get("outlet_id") or "O1")))
+        for cid, g, to, oid in zip(col(tr, "trunk_id"), tr.geometry, col(tr, "to_id"),
+                                   col(tr, "outlet_id")):
+            out.append(Carrier(str(cid), "trunk", "", _line(g), to_of(to), str(oid or "O1")))
     return out
 
 
