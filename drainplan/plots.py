@@ -353,11 +353,22 @@ def spacing_against_k(rows, *, ax=None, units="metric", title=None, k_label=None
     return ax
 
 
-def _png(fig):
+def _png(fig, dpi=150):
+    """The figure drawn once at ``dpi`` as PNG bytes, RGB without an alpha channel (the
+    figures are opaque: an alpha channel would make the PDF carry a soft mask of every
+    image), with no date in the file."""
     import io
 
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from PIL import Image
+
+    canvas = FigureCanvasAgg(fig)
+    fig.set_dpi(dpi)
+    canvas.draw()
+    w, h = canvas.get_width_height(physical=True)
+    img = Image.frombuffer("RGBA", (w, h), canvas.buffer_rgba(), "raw", "RGBA", 0, 1)
     buf = io.BytesIO()
-    save_figure(fig, buf, tight=False)
+    img.convert("RGB").save(buf, "PNG", dpi=(dpi, dpi))
     return buf.getvalue()
 
 
