@@ -58,6 +58,11 @@ def load_report_libraries():
     import matplotlib.figure  # noqa: F401
     import reportlab.platypus  # noqa: F401
 
+    from . import plots  # noqa: F401
+    from .sheet import _fonts
+
+    _fonts()                    # the sheet font read and registered once
+
 
 def _clean(obj):
     """JSON-safe copy: NaN/inf -> None, numpy scalars -> Python."""
