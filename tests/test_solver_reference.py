@@ -291,7 +291,8 @@ def test_cases_left_by_the_two_halley_steps_are_finished(monkeypatch):
         for branch in (True, False):
             i = np.flatnonzero(small == branch)
             if branch:
-                p, g, k2 = 1.0 / D[i], np.log(D[i] / (np.pi * r[i])), -0.25 * np.pi ** 2 / D[i] ** 2
+                p, g = 1.0 / D[i], np.log(D[i] / (np.pi * r[i]))
+                k2 = -0.25 * np.pi ** 2 / D[i] ** 2
             else:
                 p, g, k2 = 2.0 * np.pi * D[i], np.log(np.pi * r[i]), None
             L, good = ed._two_halley_steps(branch, ref[i] * factor, A[i], B[i], p, g, k2, 1e-6)
@@ -365,3 +366,15 @@ def test_glover_dumm_wide_range_matches_bracketed_solver(flow_depth):
     ok = ~np.isnan(ref)
     assert ok.sum() > 0.8 * n
     assert_allclose(L[ok], ref[ok], rtol=1e-12, atol=1e-6)
+
+
+def test_empty_input_gives_empty_output():
+    """No cases in, no spacings out, in the shape given (the numpy convention)."""
+    kw = dict(depth_to_barrier=3.0, drain_radius=0.05)
+    for method in ("series", "moody"):
+        L = hooghoudt_spacing(recharge=np.ones((2, 0)), head=0.5, k_below=0.5,
+                              equivalent_depth_method=method, **kw)
+        assert L.shape == (2, 0)
+    assert glover_dumm_spacing(initial_head=[], final_head=0.4, time=2.0, k=0.5,
+                               drainable_porosity=0.05, **kw).shape == (0,)
+    assert kirkham_spacing(head=np.zeros((0, 3)), recharge=0.005, k=0.5, **kw).shape == (0, 3)

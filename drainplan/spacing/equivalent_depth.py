@@ -422,7 +422,7 @@ def _flat(*arrays):
     shape = arrays[0].shape
     out = []
     for a in arrays:
-        if a.ndim and all(st == 0 for st in a.strides):
+        if a.size and a.ndim and all(st == 0 for st in a.strides):
             out.append(np.asarray(a.flat[0]))        # a broadcast single value
         else:
             out.append(np.ravel(a))
