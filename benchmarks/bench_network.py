@@ -117,6 +117,7 @@ xy, z, pts = d["xy"], d["z"], d["pts"]
 if sys.argv[2] == "scipy":
     from scipy.interpolate import LinearNDInterpolator
 else:
+    import scipy.spatial  # noqa: F401  (loaded before the clock, as scipy.interpolate is)
     from drainplan.terrain import PointSurface
 t1, w1 = time.process_time(), time.perf_counter()
 f = LinearNDInterpolator(xy, z) if sys.argv[2] == "scipy" else PointSurface(xy, z)
@@ -243,7 +244,7 @@ def main():
     if args.write:
         from bench_spacing import write_section as _write_section
 
-        _write_section(text, "## Drainage network")
+        _write_section(text, lines[0])
 
 
 if __name__ == "__main__":
