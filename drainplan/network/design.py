@@ -29,6 +29,12 @@ Sizes
     carries the flow at the reach's grade; never smaller downstream along a
     carrier, nor smaller than a pipe it receives. A reach beyond the size table is
     marked with its fix and the rest of the network is still designed.
+Arrays
+    All pipes' samples live in one array (a pipe is a slice of it); the ground is
+    sampled once per sample point, the laterals are graded, sized and checked
+    together, and the carriers one tree level at a time (a level needs only what
+    the level above it, upstream, has settled). The cost grows linearly with the
+    number of pipes and reaches; the results are those of a pipe-by-pipe loop.
 """
 
 from __future__ import annotations
@@ -1220,12 +1226,6 @@ def _capacity(d, grade, series, options, uniform_inflow):
     cap = pipe_capacity(d, grade, series.material, method=options.method,
                         uniform_inflow=uniform_inflow)
     return np.asarray(cap, float) * options.capacity_factor
-
-
-def _outside(row, series):
-    """Outside diameter estimate of a reach's pipe [m]."""
-    return float(outside_diameter((row.get("inner_diameter_mm") or 100.0) / 1000.0,
-                                  series.material))
 
 
 def _velocity_checks(row, options, violations):
