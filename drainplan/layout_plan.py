@@ -449,8 +449,15 @@ def _field_planes(inp, geoms, ids, work_crs):
     return surface, planes
 
 
+#: Fall below which the ground decides neither the laterals' direction nor, along the
+#: laterals, the main's side [m/m] (2 cm per 100 m: within survey precision).
+_FLAT = 2e-4
+
+
 def _across_slope(planes, ids):
-    """Per-field bearings across the fall of the plane fitted to the ground."""
+    """Per-field bearings across the fall of the plane fitted to the ground; NaN (the
+    field's long axis) where the ground falls less than :data:`_FLAT`, whose direction
+    of fall is survey noise."""
     from .terrain import fall_bearing
 
     bearings = np.full(len(planes), np.nan)
@@ -459,14 +466,14 @@ def _across_slope(planes, ids):
         if pl is None:
             continue
         fall, slope = fall_bearing(*pl)
+        if slope < _FLAT:
+            notes.append(f"field {ids[i]}: the ground is level (falls {slope:.3%}, less than "
+                         f"{_FLAT:.2%}); laterals laid along the field's long axis")
+            continue
         bearings[i] = (fall + 90.0) % 180.0
         notes.append(f"field {ids[i]}: ground falls {slope:.2%} towards {fall:.0f} deg; "
                      f"laterals laid across the slope at {bearings[i]:.0f} deg")
     return bearings, notes
-
-
-#: Fall along the laterals below which the ground does not decide the main's side.
-_FLAT = 2e-4
 
 
 def _low_ends(planes, geoms, ids, options):

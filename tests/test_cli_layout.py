@@ -253,3 +253,30 @@ def test_drawn_mains_follow_the_lines_drawn(run, tmp_path):
         # the main lies on the drawn line (it may be trimmed to the laterals' reach)
         assert g.hausdorff_distance(ref_line.intersection(g.buffer(0.01))) < 0.05
         assert shapely.buffer(ref_line, 0.01).contains(g)
+
+
+@pytest.mark.parametrize("fall", [0.0, 1e-5])
+def test_level_survey_lays_along_the_long_axis(run, tmp_path, fall):
+    """Level ground (or a fall below 0.02 %, within survey precision) gives no direction
+    across the slope: the laterals run along the field's long axis, as without a survey,
+    and the output says the ground is level (common practice: lay laterals across the
+    slope only where there is a slope)."""
+    crs = "EPSG:32617"
+    field = shapely.box(330_000, 4_650_000, 330_320, 4_650_220)      # long axis east-west
+    fields = tmp_path / "f.gpkg"
+    gpd.GeoDataFrame({"name": ["F1"]}, geometry=[field], crs=crs).to_file(fields)
+    x, y = np.meshgrid(np.linspace(329_990, 330_330, 12), np.linspace(4_649_990, 4_650_230, 9))
+    z = 300.0 + fall * (x - 330_000) + 0.7 * fall * (y - 4_650_000)
+    survey = tmp_path / "s.csv"
+    survey.write_text("x,y,z\n" + "\n".join(f"{a:.3f},{b:.3f},{c:.6f}" for a, b, c in
+                                            zip(x.ravel(), y.ravel(), z.ravel())) + "\n")
+    common = ["--spacing", "15 m", "--direction", "auto", "--setback", "5 m", "--json"]
+    r = run("layout", fields, *common, "--survey", survey, "--survey-crs", crs,
+            "-o", tmp_path / "a.gpkg")
+    assert r.exit_code == 0, r.output
+    assert "ground is level" in json.dumps(json.loads(r.stdout))
+    r0 = run("layout", fields, *common, "-o", tmp_path / "b.gpkg")
+    a = gpd.read_file(tmp_path / "a.gpkg", layer="laterals")
+    b = gpd.read_file(tmp_path / "b.gpkg", layer="laterals")
+    assert len(a) == len(b)
+    np.testing.assert_allclose(np.sort(a["length_m"]), np.sort(b["length_m"]), atol=1e-6)
