@@ -64,6 +64,22 @@ def available():
     return cores > 1 and _threads() == 1
 
 
+def _die_with_parent(parent):
+    """Have the kernel stop this (child) process if its parent dies (Linux), so a
+    parent killed outright leaves no work running on its own."""
+    try:
+        import ctypes
+        import signal
+
+        libc = ctypes.CDLL(None, use_errno=True)
+        pr_set_pdeathsig = 1                        # <sys/prctl.h>
+        libc.prctl(pr_set_pdeathsig, signal.SIGKILL, 0, 0, 0)
+    except (OSError, AttributeError):               # not Linux: the piece runs to its end
+        return
+    if os.getppid() != parent:                      # the parent died before the call
+        os._exit(1)
+
+
 class Task:
     """A piece of work started by :func:`start`; :meth:`result` waits for it."""
 
@@ -75,9 +91,10 @@ class Task:
         self._value = None
 
     # -- in the child ------------------------------------------------------------------
-    def _child(self, write_fd):
+    def _child(self, write_fd, parent):
         code = 0
         try:
+            _die_with_parent(parent)
             fn, args, kwargs = self._call
             with warnings.catch_warnings(record=True) as caught:
                 warnings.simplefilter("always")
@@ -104,12 +121,13 @@ class Task:
                 stream.flush()
             except Exception:                       # a closed or odd stream: nothing to flush
                 pass
+        parent = os.getpid()
         with warnings.catch_warnings():             # threads known to be fork-safe only
             warnings.simplefilter("ignore", DeprecationWarning)
             pid = os.fork()
         if pid == 0:                                # the child
             os.close(read_fd)
-            self._child(write_fd)
+            self._child(write_fd, parent)
         os.close(write_fd)
         self._pid, self._fd = pid, read_fd
 

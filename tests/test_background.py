@@ -7,7 +7,9 @@ same function directly (derived checks, no published values involved).
 
 import os
 import signal
+import sys
 import warnings
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -100,3 +102,46 @@ def test_running_until_the_piece_is_done():
     time.sleep(1.0)
     assert not task.running()           # finished: its result waits in the pipe
     assert task.result() == 5 and not task.running()
+
+
+@needs_fork
+@pytest.mark.skipif(not sys.platform.startswith("linux"), reason="parent-death signal: Linux")
+def test_child_stops_when_its_parent_is_killed(tmp_path):
+    """A parent killed outright (SIGKILL, no chance to stop its child) leaves no child
+    working on its own."""
+    import subprocess
+    import textwrap
+    import time
+
+    script = tmp_path / "parent.py"
+    script.write_text(textwrap.dedent(f"""
+        import os, sys, time
+        sys.path.insert(0, {str(Path(__file__).parent)!r})
+        from drainplan import _background
+        import test_background as t
+        task = _background.start(t._sleep_then, 1, 30.0)
+        print(task._pid, flush=True)
+        time.sleep(60)
+    """))
+    p = subprocess.Popen([sys.executable, str(script)], stdout=subprocess.PIPE, text=True,
+                         env={**os.environ, "OPENBLAS_NUM_THREADS": "1"})
+    child = int(p.stdout.readline())
+    os.kill(child, 0)                    # running
+    p.kill()
+    p.wait()
+    for _ in range(50):
+        time.sleep(0.1)
+        try:
+            os.kill(child, 0)
+        except ProcessLookupError:
+            break
+        # a zombie waits for init to reap it: count it as stopped
+        try:
+            with open(f"/proc/{child}/stat") as fh:
+                if fh.read().split(")")[-1].split()[0] == "Z":
+                    break
+        except OSError:
+            break
+    else:
+        os.kill(child, signal.SIGKILL)
+        pytest.fail("the child outlived its killed parent")
