@@ -668,8 +668,10 @@ def design_network(runs, carriers, options, *, surface=None, outlets=None):
             a, b = car_start[k], car_start[k] + car_n[k]
             ch = car_ch[a:b]
             ab = np.array([r["chainage_m"] for r in rows], float)
-            lo_hi.append(np.stack([a + np.searchsorted(ch, ab[:, 0] - 1e-9, side="left"),
-                                   a + np.searchsorted(ch, ab[:, 1] + 1e-9, side="right")],
+            # the reaches' chainages are rounded to the micrometre: samples within 1e-6 m
+            # of a reach's ends belong to it (both ends are checked)
+            lo_hi.append(np.stack([a + np.searchsorted(ch, ab[:, 0] - 1e-6, side="left"),
+                                   a + np.searchsorted(ch, ab[:, 1] + 1e-6, side="right")],
                                   axis=1))
         lo_hi = np.vstack(lo_hi) if lo_hi else np.zeros((0, 2), np.int64)
         _profile_checks(lat_rows, lat_start, lat_start + lat_n, lat_ch, lat_xy, lat_ground,
