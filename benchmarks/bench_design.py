@@ -96,7 +96,7 @@ def main():
         sys.path.insert(0, str(Path(__file__).parent))
         from bench_spacing import write_section as _write_section
 
-        _write_section(text, "## Demo design")
+        _write_section(text, text.splitlines()[0], drop=("## Demo design",))
 
 
 if __name__ == "__main__":

@@ -260,7 +260,7 @@ def main():
     if args.write:
         from bench_spacing import write_section as _write_section
 
-        _write_section(text, "## Field layout")
+        _write_section(text, text.splitlines()[0], drop=("## Field layout",))
 
 
 if __name__ == "__main__":
