@@ -123,3 +123,49 @@ def test_bad_weather_file_in_a_design_is_one_line(run, tmp_path):
     err = [ln for ln in r.stderr.splitlines() if ln.startswith("drainplan: error")]
     assert len(err) == 1 and "simulation.weather" in err[0] and "line 3" in err[0]
     assert not out.exists()
+
+
+def test_temperatures_take_the_fields_latitude(tmp_path):
+    """A weather record of temperatures (no PET) and no simulation.latitude: the design
+    waits for the layout and computes PET by Hargreaves-Samani at the fields' latitude
+    (FAO-56 Eq. 52, checked in test_weather.py), the same whether or not the season
+    simulation could start beside the layout (DRAINPLAN_BACKGROUND)."""
+    import os
+
+    import geopandas as gpd
+
+    from drainplan.design import design
+    from drainplan.project import load_project
+    from drainplan.weather import hargreaves_samani
+
+    # two invented years of temperatures, rain from the demo record
+    lines = (DEMO / "weather.csv").read_text().splitlines()
+    head = [i for i, ln in enumerate(lines) if ln.startswith("date,")][0]
+    rows = [ln.split(",") for ln in lines[head + 1:head + 1 + 731]]
+    doy = np.arange(len(rows)) % 365
+    tmin = 4.0 + 10.0 * np.sin(2 * np.pi * (doy - 100) / 365)
+    tmax = tmin + 9.0
+    path = _project(tmp_path, '[simulation]\nweather = "temps.csv"\nseason = "03-15:06-15"\n')
+    (tmp_path / "temps.csv").write_text(
+        "date,rain_mm,tmin_c,tmax_c\n" + "\n".join(
+            f"{r[0]},{r[1]},{a:.1f},{b:.1f}" for r, a, b in zip(rows, tmin, tmax)) + "\n")
+    lat = float(gpd.read_file(DEMO / "fields.geojson").to_crs("EPSG:4326")
+                .geometry.union_all().centroid.y)
+    out = {}
+    for flag in ("1", "0"):
+        os.environ["DRAINPLAN_BACKGROUND"] = flag
+        try:
+            out[flag] = design(load_project(path)).summary["simulation"]
+        finally:
+            os.environ.pop("DRAINPLAN_BACKGROUND")
+    s = out["1"]
+    assert s["weather"]["pet_source"] == "hargreaves-samani"
+    assert s["weather"]["latitude_deg"] == pytest.approx(lat, abs=1e-6)
+    assert s == out["0"]
+    w = read_weather(tmp_path / "temps.csv", latitude=lat)
+    dates = w.dates
+    day = (dates - dates.astype("datetime64[Y]")).astype(int) + 1
+    np.testing.assert_allclose(w.pet, np.asarray(hargreaves_samani(
+        tmin=[float(f"{a:.1f}") for a in tmin], tmax=[float(f"{b:.1f}") for b in tmax],
+        latitude=lat, day_of_year=day)),
+        rtol=1e-12)
