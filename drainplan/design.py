@@ -314,7 +314,8 @@ def design(project, *, progress=None, idle=None):
     coef = p.pipes.get("coefficient", c.get("recharge"))
     sim_task = None
     if "weather" in p.simulation:
-        sim_task = background.start(_season_simulation_runs, p, depth, spacing)
+        sim_task = background.start(_season_simulation, p, depth, spacing, raw_spacing, coef,
+                                    None)
     try:
         # layout
         say("layout")
@@ -366,8 +367,11 @@ def design(project, *, progress=None, idle=None):
             say("season simulation")
             if idle is not None and sim_task.running():
                 idle()
-            summary["simulation"], figures["simulation"] = _season_simulation(
-                p, depth, spacing, raw_spacing, coef, lp, task=sim_task)
+            try:
+                sim = sim_task.result()
+            except _NeedsFieldLatitude:       # PET from temperatures at the fields' latitude
+                sim = _season_simulation(p, depth, spacing, raw_spacing, coef, lp)
+            summary["simulation"], figures["simulation"] = sim
             summary["references"] += SIMULATION_REFERENCES
         return DesignResult(p, summary, lp, pipes_plan, figures)
     finally:
@@ -394,13 +398,13 @@ class _NeedsFieldLatitude(Exception):
     simulation waits for the layout (the fields' latitude)."""
 
 
-def _simulation_inputs(p, depth, lp):
-    """[simulation]: the site at the design depth, the weather record and the season.
+def _season_simulation(p, depth, spacing, raw_spacing, coef, lp):
+    """[simulation]: the water table over the project's weather record at the design depth.
 
     ``lp`` (the layout) gives the fields' latitude for PET from temperatures when the
     project gives none; with ``lp=None`` such a record raises
     :class:`_NeedsFieldLatitude`."""
-    from .simulation_plan import SimulationSite
+    from .simulation_plan import SimulationSite, design_simulation
     from .weather import parse_season, read_weather
 
     sim = p.simulation
@@ -435,48 +439,15 @@ def _simulation_inputs(p, depth, lp):
         if lp is None and latitude is None and exc.param == "latitude":
             raise _NeedsFieldLatitude() from None
         raise InputError(f"{p.path.name}: simulation.weather: {exc}", param="project") from None
-    return site, weather, parse_season(sim.get("season"))
-
-
-def _season_simulation_runs(p, depth, spacing):
-    """The costly part of the season simulation (the chosen model over the spacing grid
-    and the target search): what runs beside the layout."""
-    from .simulation_plan import design_simulation_runs
-
-    site, weather, season = _simulation_inputs(p, depth, None)
-    sim = p.simulation
+    season = parse_season(sim.get("season"))
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", ConvergenceWarning)
-        return design_simulation_runs(site, weather, spacing=spacing, season=season,
-                                      target=sim.get("target_sew30"),
-                                      basis=sim.get("target_basis", "mean"),
-                                      model=sim.get("model", "boussinesq"))
-
-
-def _season_simulation(p, depth, spacing, raw_spacing, coef, lp, task=None):
-    """[simulation]: the water table over the project's weather record at the design depth
-    (summary and figure data). ``task`` (from :mod:`drainplan._background`) is
-    :func:`_season_simulation_runs` started earlier; the other model is run here
-    meanwhile."""
-    from .simulation_plan import design_simulation, design_simulation_other
-
-    sim = p.simulation
-    model = sim.get("model", "boussinesq")
-    site, weather, season = _simulation_inputs(p, depth, lp)
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore", ConvergenceWarning)
-        other = design_simulation_other(site, weather, spacing=spacing, model=model)
-        runs = None
-        if task is not None:
-            try:
-                runs = task.result()
-            except _NeedsFieldLatitude:       # PET from temperatures at the fields' latitude
-                runs = None
         return design_simulation(site, weather, spacing=spacing, analytic_spacing=raw_spacing,
                                  coefficient=coef, season=season,
                                  target=sim.get("target_sew30"),
-                                 basis=sim.get("target_basis", "mean"), model=model,
-                                 season_text=sim.get("season", "all"), runs=runs, other=other)
+                                 basis=sim.get("target_basis", "mean"),
+                                 model=sim.get("model", "boussinesq"),
+                                 season_text=sim.get("season", "all"))
 
 
 #: Spacing rounding for a project shown in US units when the project gives none: 5 ft

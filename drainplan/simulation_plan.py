@@ -20,8 +20,7 @@ from .spacing.simulation import boussinesq_simulation, sew30
 from .weather import season_years
 
 __all__ = ["MODELS", "TARGET_BASES", "SimulationSite", "SimulationRun", "simulate_site",
-           "summarise", "widest_spacing_for_target", "design_grid", "design_simulation",
-           "design_simulation_runs", "design_simulation_other", "ASSUMPTIONS"]
+           "summarise", "widest_spacing_for_target", "ASSUMPTIONS"]
 
 #: Model names (also the CLI choices).
 MODELS = ("boussinesq", "reservoir")
@@ -328,50 +327,9 @@ def daily_csv(run):
     return "\n".join(out) + "\n"
 
 
-def design_grid(spacing):
-    """The spacings a design's simulation covers: 0.4 to 5 times the design spacing
-    (a time step costs about the same for 3 or 30 spacings), with a narrower (2/3) and
-    a wider (1.5 times) spacing. Returns (grid [m], narrower, wider)."""
-    L = float(spacing)
-    narrow, wide = round(L * 2.0 / 3.0, 1), round(L * 1.5, 1)
-    grid = np.unique(np.round(np.r_[np.linspace(0.4, 2.6, 12) * L, np.linspace(3.0, 5.0, 5) * L,
-                                    narrow, L, wide], 2))
-    return grid, narrow, wide
-
-
-def design_simulation_runs(site, weather, *, spacing, season=None, target=None, basis="mean",
-                           model="boussinesq"):
-    """The costly part of :func:`design_simulation`: the chosen model over the design's
-    spacing grid and the search for the widest spacing within the SEW30 target.
-
-    Returns
-    -------
-    (SimulationResult, dict or None)
-        For ``design_simulation(..., runs=...)``.
-    """
-    site.check()
-    grid, _, _ = design_grid(spacing)
-    res = _run_model(model, site, weather, grid)
-    tgt = None
-    if target is not None:
-        run = SimulationRun(weather, site, model, res, None, season, None)
-        tgt = widest_spacing_for_target(site, weather, grid, target=target, basis=basis,
-                                        model=model, season=season, run=run, refine=1,
-                                        points=16)
-    return res, tgt
-
-
-def design_simulation_other(site, weather, *, spacing, model="boussinesq"):
-    """The other model over the design's spacing grid (shown beside the chosen one), for
-    ``design_simulation(..., other=...)``."""
-    site.check()
-    other = "reservoir" if model == "boussinesq" else "boussinesq"
-    return _run_model(other, site, weather, design_grid(spacing)[0])
-
-
 def design_simulation(site, weather, *, spacing, analytic_spacing=None, coefficient=None,
                       season=None, target=None, basis="mean", model="boussinesq",
-                      season_text="all", runs=None, other=None):
+                      season_text="all"):
     """The season simulation for a design: a spacing grid around the design spacing,
     a narrower and a wider spacing, the SEW30 target, and the method agreement.
 
@@ -390,12 +348,6 @@ def design_simulation(site, weather, *, spacing, analytic_spacing=None, coeffici
         SEW30 limit per season [cm d].
     basis : {"mean", "worst-year"}
     model : {"boussinesq", "reservoir"}
-    runs : tuple, optional
-        :func:`design_simulation_runs` of the same inputs, made elsewhere (another
-        process); computed here when not given.
-    other : SimulationResult, optional
-        :func:`design_simulation_other` of the same inputs; computed here when not
-        given.
 
     Returns
     -------
@@ -404,22 +356,19 @@ def design_simulation(site, weather, *, spacing, analytic_spacing=None, coeffici
     figures : dict
         Arrays for the sheet's figures.
     """
-    if model not in MODELS:
-        raise InputError(f"model {model!r} is unknown; choose one of " + ", ".join(MODELS),
-                         param="model")
-    if coefficient is not None and not (coefficient > 0):
-        raise InputError("drainage coefficient must be greater than 0 m/d", param="coefficient")
     L = float(spacing)
-    grid, narrow, wide = design_grid(L)
-    if runs is None:
-        runs = design_simulation_runs(site, weather, spacing=L, season=season, target=target,
-                                      basis=basis, model=model)
-    if other is None:
-        other = design_simulation_other(site, weather, spacing=L, model=model)
-    res, tgt = runs
-    run = SimulationRun(weather, site, model, res, other, season, coefficient)
-    run.rows = summarise(run)
+    narrow, wide = round(L * 2.0 / 3.0, 1), round(L * 1.5, 1)
+    # one call covers 0.4 L to 5 L (a time step costs about the same for 3 or 30 spacings)
+    grid = np.unique(np.round(np.r_[np.linspace(0.4, 2.6, 12) * L, np.linspace(3.0, 5.0, 5) * L,
+                                    narrow, L, wide], 2))
+    run = simulate_site(site, weather, grid, model=model, season=season,
+                        coefficient=coefficient)
     key = [int(np.argmin(np.abs(grid - v))) for v in (narrow, L, wide)]
+    tgt = None
+    if target is not None:
+        tgt = widest_spacing_for_target(site, weather, grid, target=target, basis=basis,
+                                        model=model, season=season, run=run, refine=1,
+                                        points=16)
     year, mask = wettest_season(weather, season)
     r = run.result
     sew_key = "sew30_cm_d" if basis == "mean" else "sew30_worst_year_cm_d"
