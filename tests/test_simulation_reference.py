@@ -46,3 +46,19 @@ def test_simulation_matches_previous_implementation(case, weather, ref):
         assert_allclose(getattr(r, key), ref[f"{case}.{key}"], rtol=0, atol=1e-6,
                         err_msg=f"{case}: {key}")
     assert np.abs(r.balance_error()).max() < 1e-12
+
+
+@pytest.mark.parametrize("case", sorted(_mod.RESERVOIR_CASES))
+def test_reservoir_matches_previous_implementation(case, weather):
+    """The de Zeeuw-Hellinga reservoir against the numbers of the loop it replaced
+    (tests/data/reservoir_reference.npz, captured with commit 4cf036a's loop): the same
+    to the last bit (the same operations, stored differently)."""
+    from drainplan.spacing.reservoir import de_zeeuw_hellinga_simulation
+
+    ref = np.load(DATA / "reservoir_reference.npz")
+    r = de_zeeuw_hellinga_simulation(rain=weather.rain[_mod.DAYS], pet=weather.pet[_mod.DAYS],
+                                     **_mod.RESERVOIR_CASES[case])
+    for key in _mod.KEYS:
+        np.testing.assert_array_equal(getattr(r, key), ref[f"{case}.{key}"],
+                                      err_msg=f"{case}: {key}")
+    np.testing.assert_array_equal(r.extra["discharge_end"], ref[f"{case}.discharge_end"])

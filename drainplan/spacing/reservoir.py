@@ -172,13 +172,12 @@ def _run(w, rain, pet, a, dt, cmu, zd, zr, w_max):
     T, n = rain.size, a.size
     decay = np.exp(-a * dt)
     gain = (1.0 - decay) / a                          # integral of exp(-a s) over the step
-    wtd = np.empty((n, T))
-    drain = np.empty((n, T))
-    runoff = np.zeros((n, T))
-    et = np.empty((n, T))
-    storage = np.empty((n, T + 1))
-    storage[:, 0] = w
-    q_end = np.empty((n, T))
+    # per-step values kept by rows (time, case): contiguous writes; transposed at the end
+    W = np.empty((T + 1, n))
+    W[0] = w
+    Q = np.empty((T, n))
+    E = np.empty((T, n))
+    RO = np.empty((T, n))
     band = zd - zr
     plain = bool(np.all(band > 0))
     inv_band = 1.0 / np.where(band > 0, band, 1.0)
@@ -197,13 +196,14 @@ def _run(w, rain, pet, a, dt, cmu, zd, zr, w_max):
         w_new = w_new - short
         e = e + short
         neg = np.minimum(q, 0.0)                      # drains do not infiltrate: less ET
-        q = q - neg
-        e = e + neg
-        runoff[:, t] = over
-        drain[:, t] = q
-        et[:, t] = e
+        RO[t] = over
+        Q[t] = q - neg
+        E[t] = e + neg
         w = w_new
-        storage[:, t + 1] = w
-        wtd[:, t] = zd - w / cmu
-        q_end[:, t] = a * w                           # Eq. (5.1): q = alpha W
+        W[t + 1] = w
+    storage = W.T.copy()
+    wtd = zd[:, None] - storage[:, 1:] / cmu[:, None] if np.ndim(zd) else \
+        zd - storage[:, 1:] / cmu[:, None]
+    q_end = a[:, None] * storage[:, 1:]               # Eq. (5.1): q = alpha W
+    runoff, drain, et = RO.T.copy(), Q.T.copy(), E.T.copy()
     return w, (wtd, drain, runoff, et, storage, q_end)

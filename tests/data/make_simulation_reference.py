@@ -1,11 +1,12 @@
 """Capture the season simulation's daily series for a few cases (run once, by hand).
 
 tests/test_simulation_reference.py compares the current implementation with these
-numbers. Captured at commit 4cf036a (the stepper before the time loop was slimmed:
-per-step diagnostics inside the loop); re-run only when a change of the results is
-intended and explained.
+numbers. The Boussinesq cases were captured at commit 4cf036a (the stepper before the
+time loop was slimmed: per-step diagnostics inside the loop), the de Zeeuw-Hellinga
+cases with that commit's reservoir loop (before its per-step values were kept by rows);
+re-run only when a change of the results is intended and explained.
 
-    python tests/data/make_simulation_reference.py
+    python tests/data/make_simulation_reference.py [--reservoir]
 """
 
 from pathlib import Path
@@ -39,8 +40,39 @@ CASES = {
 }
 KEYS = ("water_table_depth", "drain", "runoff", "et", "storage")
 
+RESERVOIR_CASES = {
+    # the demo site over the design's kind of spacing grid, a year run first
+    "grid": dict(spacing=[5.2, 13.0, 26.0, 39.0, 65.0],
+                 k_below=0.5, k_above=0.8, depth_to_barrier=2.1, drain_radius=0.059,
+                 drain_depth=1.1, drainable_porosity=0.06, spin_up=365),
+    # a wet start and a shallow root zone
+    "wet": dict(spacing=[12.0, 50.0], k_below=0.3, depth_to_barrier=1.5, drain_radius=0.05,
+                drain_depth=0.9, drainable_porosity=0.05, root_zone_depth=0.3,
+                initial_depth=0.2),
+    # a root zone deeper than the drains (the general ET reduction)
+    "deep_roots": dict(spacing=[20.0], k_below=1.0, depth_to_barrier=3.0, drain_radius=0.05,
+                       drain_depth=1.0, drainable_porosity=0.04, root_zone_depth=1.5),
+}
+
+
+def capture_reservoir():
+    from drainplan.spacing.reservoir import de_zeeuw_hellinga_simulation
+
+    w = read_weather(WEATHER, latitude=45.0)
+    out = {}
+    for name, kw in RESERVOIR_CASES.items():
+        r = de_zeeuw_hellinga_simulation(rain=w.rain[DAYS], pet=w.pet[DAYS], **kw)
+        for k in KEYS:
+            out[f"{name}.{k}"] = getattr(r, k)
+        out[f"{name}.discharge_end"] = r.extra["discharge_end"]
+    np.savez_compressed(HERE / "reservoir_reference.npz", **out)
+
 
 def main():
+    import sys
+
+    if "--reservoir" in sys.argv:
+        return capture_reservoir()
     w = read_weather(WEATHER, latitude=45.0)
     out = {}
     for name, kw in CASES.items():
