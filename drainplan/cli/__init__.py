@@ -256,7 +256,18 @@ def cli(ctx, verbose, quiet):
 
 def main(argv=None):
     """Console-script entry point (one BLAS thread and an allocator that keeps freed
-    memory, unless the user set their own)."""
+    memory, unless the user set their own).
+
+    On the way out the objects left are frozen out of the garbage collector: the
+    process ends next, and the collector's last passes over a design's millions of
+    objects cost 0.3-0.5 s of a 3 s run. Exit handlers and file closing are as usual.
+    """
     limit_threads()
     DrainplanGroup.tune_on_load = True
-    return cli.main(args=argv, prog_name="drainplan")
+    try:
+        return cli.main(args=argv, prog_name="drainplan")
+    finally:
+        if argv is None:                # the console script, not a caller in a program
+            import gc
+
+            gc.freeze()
