@@ -77,6 +77,13 @@ def main():
                      f"{cpu:.2f} s | {load:.1f} | under 3 s |")
     lines.append(f"| `drainplan --help` | {t_help[0]:.3f} s | {t_help[1]:.3f} s | "
                  f"{t_help[2]:.1f} | under 0.2 s |")
+    d_wall = rows[0][1][0]
+    lines += ["", f"Target: the demo design under 3 s: **{'met' if d_wall < 3.0 else 'not met'}**"
+              f" ({d_wall:.2f} s, best of {n}; one process {rows[1][1][0]:.2f} s); "
+              f"`drainplan --help` under 0.2 s: "
+              f"**{'met' if t_help[0] < 0.2 else 'not met'}** ({t_help[0]:.3f} s). The wall "
+              "time follows the machine's load (the column beside it); the CPU time is the "
+              "steadier measure of the work."]
     lines += ["", "Start of each step in the best runs (seconds after the design began; "
               "imports and reading the project come before):", "",
               "| step | " + " | ".join(label.split(" (")[0] for label, _ in rows) + " |",
