@@ -81,10 +81,18 @@ def show(value, role, system="metric", digits=2):
     '3.94 ft'
     >>> show(0.01, "recharge", "metric", 1)
     '10.0 mm/d'
+
+    A rate in inches per day keeps at least three decimals (an inch is 25.4 mm: a
+    tenth of an inch a day would hide 3/8 in/d):
+
+    >>> show(0.375 * 0.0254, "recharge", "us", 1)
+    '0.375 in/d'
     """
     if value is None or value != value:
         return "–"
     label, factor = _display(role, system)
+    if role == "recharge" and system == "us":
+        digits = max(digits, 3)
     return f"{float(value) * factor:.{digits}f} {label}"
 
 

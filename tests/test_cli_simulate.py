@@ -120,3 +120,14 @@ def test_bad_input_one_line_nothing_written(run, tmp_path, change, match):
     assert len(r.stderr.strip().splitlines()) == 1 and "Traceback" not in r.output
     assert match in r.stderr
     assert not daily.exists() and not png.exists()
+
+
+def test_target_note_in_us_units(run, weather2):
+    """With --units us the target search's note gives its spacing in feet too (12 m is
+    39.4 ft, shown to the note's precision as 39 ft: 1 ft = 0.3048 m exactly, NIST SP
+    811)."""
+    r = run("simulate", "--weather", weather2, "--spacing", "12,20", *SITE,
+            "--target-sew30", "0.5", "--units", "us")
+    assert r.exit_code == 0, r.output
+    line = next(ln for ln in r.stdout.splitlines() if ln.startswith("Target SEW30"))
+    assert "narrowest spacing simulated (39 ft)" in line and " m)" not in line

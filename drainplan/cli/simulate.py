@@ -8,7 +8,7 @@ import click
 import numpy as np
 
 from ..errors import InputError
-from ..units import display_unit, parse_quantity, show, to_display
+from ..units import display_unit, parse_quantity, show, text_in_units, to_display
 from .options import FRACTION, LENGTH, RATE, json_option, units_option
 from .spacing import DrainRadius
 
@@ -282,12 +282,13 @@ def _as_text(run, target, season, units):
         basis = "mean season" if target["basis"] == "mean" else "worst season"
         if target["spacing_m"] is None:
             lines.append(f"Target SEW30 <= {sew(target['target_cm_d'])} {sew_u} ({basis}): "
-                         f"{target['note']}")
+                         f"{text_in_units(target['note'], units)}")
         else:
             lines.append(f"Target SEW30 <= {sew(target['target_cm_d'])} {sew_u} ({basis}): "
                          f"widest spacing {show(target['spacing_m'], 'spacing', units, 1)} "
                          f"(SEW30 {sew(target['sew30_cm_d'])} {sew_u})"
-                         + (f"; {target['note']}" if target.get("note") else ""))
+                         + (f"; {text_in_units(target['note'], units)}"
+                            if target.get("note") else ""))
     lines.append("Assumptions")
     lines += [f"  - {a}" for a in _assumptions()]
     lines.append("  - A design aid: check against local codes and have it reviewed by a "
