@@ -325,6 +325,15 @@ def design(project, *, progress=None, idle=None):
             p, spacing, survey_path=p.pipes.get("survey"), survey_crs=p.pipes.get("survey_crs"),
             survey_z_unit=p.pipes.get("survey_z_unit", "m"), dem_path=p.pipes.get("dem")))
 
+        if len(lp.layers["laterals"]) == 0:      # nothing to pipe: say which field and why
+            from .units import show, text_in_units
+
+            u = p.report.get("units", "metric")
+            why = "; ".join(text_in_units(r, u) for r in lp.reports if "got no laterals" in r)
+            raise InputError(f"{p.path.name}: no field got laterals at "
+                             f"{show(spacing, 'spacing', u, 1)} spacing"
+                             + (f" ({why})" if why else ""), param="project")
+
         # pipes
         say("pipes")
         from .network.design import PipeOptions

@@ -198,3 +198,27 @@ def test_simulation_page(demo_design):
     assert f"{keys['design']['sew30_cm_d']:.0f}" in page
     assert any("Assumptions of the simulation" in p for p in pages)
     assert any("Sieben" in p for p in pages)                     # reference listed
+
+
+def test_field_too_small_for_a_lateral_is_named(run, tmp_path):
+    """A field smaller than one lateral plus its setbacks: the design stops with one line
+    naming the field and why it got no laterals (not a bare 'no laterals')."""
+    import geopandas as gpd
+    import shapely
+
+    text = (DEMO / "project.toml").read_text()
+    text = text.replace('exclusions = "exclusions.geojson"\n', "")
+    for name in ("outlet.geojson", "survey.csv", "weather.csv"):
+        (tmp_path / name).symlink_to(DEMO / name)
+    demo = gpd.read_file(DEMO / "fields.geojson").to_crs("EPSG:32615")
+    c = demo.geometry.iloc[0].centroid
+    tiny = gpd.GeoDataFrame({"field_id": ["T1"]},
+                            geometry=[shapely.box(c.x, c.y, c.x + 25, c.y + 18)],
+                            crs="EPSG:32615").to_crs("EPSG:4326")
+    tiny.to_file(tmp_path / "fields.geojson", driver="GeoJSON")
+    (tmp_path / "project.toml").write_text(text)
+    r = run("design", tmp_path / "project.toml", "-o", tmp_path / "out")
+    assert r.exit_code == 2, r.output
+    err = [ln for ln in r.stderr.splitlines() if ln.startswith("drainplan: error")]
+    assert len(err) == 1 and "field T1 got no laterals" in err[0] and "spacing" in err[0]
+    assert not (tmp_path / "out").exists()
