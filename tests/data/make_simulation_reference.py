@@ -55,31 +55,29 @@ RESERVOIR_CASES = {
 }
 
 
-def capture_reservoir():
-    from drainplan.spacing.reservoir import de_zeeuw_hellinga_simulation
-
+def _capture(simulate, cases, path, extra=()):
+    """Run ``simulate`` on the first two years of the demo weather for each case and
+    save the daily series (and the ``extra`` entries of ``result.extra``) to ``path``."""
     w = read_weather(WEATHER, latitude=45.0)
     out = {}
-    for name, kw in RESERVOIR_CASES.items():
-        r = de_zeeuw_hellinga_simulation(rain=w.rain[DAYS], pet=w.pet[DAYS], **kw)
+    for name, kw in cases.items():
+        r = simulate(rain=w.rain[DAYS], pet=w.pet[DAYS], **kw)
         for k in KEYS:
             out[f"{name}.{k}"] = getattr(r, k)
-        out[f"{name}.discharge_end"] = r.extra["discharge_end"]
-    np.savez_compressed(HERE / "reservoir_reference.npz", **out)
+        for k in extra:
+            out[f"{name}.{k}"] = r.extra[k]
+    np.savez_compressed(path, **out)
 
 
 def main():
     import sys
 
     if "--reservoir" in sys.argv:
-        return capture_reservoir()
-    w = read_weather(WEATHER, latitude=45.0)
-    out = {}
-    for name, kw in CASES.items():
-        r = boussinesq_simulation(rain=w.rain[DAYS], pet=w.pet[DAYS], **kw)
-        for k in KEYS:
-            out[f"{name}.{k}"] = getattr(r, k)
-    np.savez_compressed(HERE / "simulation_reference.npz", **out)
+        from drainplan.spacing.reservoir import de_zeeuw_hellinga_simulation
+
+        return _capture(de_zeeuw_hellinga_simulation, RESERVOIR_CASES,
+                        HERE / "reservoir_reference.npz", extra=("discharge_end",))
+    _capture(boussinesq_simulation, CASES, HERE / "simulation_reference.npz")
 
 
 if __name__ == "__main__":
