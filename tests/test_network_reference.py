@@ -25,7 +25,7 @@ checks now take the samples within 1e-6 m of its (micrometre-rounded) ends, whic
 the old code dropped at random, leaving some short reaches unchecked; the problems,
 problem summaries, reach warnings, ``cover_min_m`` and the totals' problem count
 were updated from a capture of the current code (all other numbers are the old
-code's). Regenerate the files only when a change of results is intended, with the
+code's); the advice for a main on the high side was reworded. Regenerate the files only when a change of results is intended, with the
 old code checked out:  ``python tests/test_network_reference.py --capture`` (the
 routing case was captured from the demo's routing calls the same way, the routes
 computed by the old code).

@@ -1105,8 +1105,9 @@ def _high_side(runs, ground, start, last, length, violations):
             "main on the high side", f"{f}-M", 0.0, None,
             f"the ground rises {np.median(rise[inv == g]):.2%} along most laterals of field "
             f"{f} towards its main: the main is on the high side",
-            "re-run the layout with the survey (--survey) so the main goes on the low "
-            "side, or choose it with --main-side"))
+            "put the main on the low side with the layout's --main-side (a layout made "
+            "with --survey does so where the ground along the laterals decides it; without "
+            "one, re-run it with --survey)"))
         violations[-1]["summary"] = "main on the high side of its field"
 
 
