@@ -210,7 +210,7 @@ def main():
         import sys
 
         sys.path.insert(0, str(Path(__file__).parent))
-        from bench_spacing import write_section as _write_section
+        from _readme import write_section as _write_section
 
         _write_section(text, text.splitlines()[0], drop=("## Many fields at once",))
 

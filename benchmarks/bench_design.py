@@ -101,7 +101,7 @@ def main():
     print(text)
     if args.write:
         sys.path.insert(0, str(Path(__file__).parent))
-        from bench_spacing import write_section as _write_section
+        from _readme import write_section as _write_section
 
         _write_section(text, text.splitlines()[0], drop=("## Demo design",))
 

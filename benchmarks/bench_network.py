@@ -242,7 +242,7 @@ def main():
     text = "\n".join(lines)
     print(text)
     if args.write:
-        from bench_spacing import write_section as _write_section
+        from _readme import write_section as _write_section
 
         _write_section(text, lines[0])
 

@@ -83,15 +83,9 @@ def main():
     text = "\n".join(lines)
     print(text)
     if args.write:
-        path = Path(__file__).with_name("README.md")
-        old = path.read_text()
-        parts = old.split("\n## ")
-        head, sections = parts[0], ["## " + p for p in parts[1:]]
-        sections = [s for s in sections if not s.startswith(HEADING)]
-        sections.append(text)
-        path.write_text(head.rstrip() + "\n\n" + "\n\n".join(s.rstrip() for s in sections)
-                        + "\n")
+        from _readme import write_section
 
+        write_section(text, HEADING)
 
 if __name__ == "__main__":
     main()

@@ -371,26 +371,6 @@ def report(rows, startup, args):
     return "\n".join(lines), "\n".join(lines2)
 
 
-def write_section(text, heading, drop=()):
-    path = Path(__file__).with_name("README.md")
-    old = path.read_text() if path.exists() else "# Benchmarks\n"
-    parts = old.split("\n## ")
-    head, sections = parts[0], ["## " + p for p in parts[1:]]
-    # the section replaced where it stands (appended if new), so that other sections and
-    # their order stay as they are
-    kept, placed = [], False
-    for s in sections:
-        if s.startswith(heading + "\n") or s.rstrip() == heading:
-            if not placed:
-                kept.append(text)
-                placed = True
-        elif not any(s.startswith(g) for g in drop):
-            kept.append(s)
-    if not placed:
-        kept.append(text)
-    path.write_text(head.rstrip() + "\n\n" + "\n\n".join(s.rstrip() for s in kept) + "\n")
-
-
 def main():
     ap = argparse.ArgumentParser()
     ap.add_argument("--quick", action="store_true", help="smaller sizes, fewer repeats")
@@ -430,6 +410,8 @@ def main():
     solvers, start = report(rows, startup, args)
     print(solvers + "\n\n" + start)
     if args.write:
+        from _readme import write_section
+
         write_section(solvers, "## Spacing solvers", drop=("## Hooghoudt spacing, vectorised",))
         write_section(start, "## Command-line start-up")
 

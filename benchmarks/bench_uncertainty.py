@@ -17,7 +17,6 @@ import os
 import platform
 import time
 import warnings
-from pathlib import Path
 
 os.environ.setdefault("OMP_NUM_THREADS", "1")
 os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
@@ -86,17 +85,9 @@ def main():
     text = "\n".join(lines)
     print(text)
     if args.write:
-        _write_section(text, HEADING)
+        from _readme import write_section
 
-
-def _write_section(text, heading):
-    path = Path(__file__).with_name("README.md")
-    old = path.read_text() if path.exists() else "# Benchmarks\n"
-    parts = old.split("\n## ")
-    head, sections = parts[0], ["## " + p for p in parts[1:]]
-    sections = [s for s in sections if not s.startswith(heading)]
-    sections.append(text)
-    path.write_text(head.rstrip() + "\n\n" + "\n\n".join(s.rstrip() for s in sections) + "\n")
+        write_section(text, HEADING)
 
 
 if __name__ == "__main__":
