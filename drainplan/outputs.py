@@ -217,8 +217,7 @@ def write_design_outputs(result, outdir, *, overwrite=False, progress=None):
         # processes where a core is free)
         with background.start(write_data, tmp) as data:
             say("figures")
-            import matplotlib.figure  # noqa: F401 - loaded once, before the process splits
-
+            load_report_libraries()     # once, before the process splits
             from .plots import DESIGN_FIGURES
 
             with background.start(render_figures, result, _FIGURES_BESIDE) as beside:

@@ -1057,34 +1057,36 @@ def _profile_checks_block(rows, sel, lo, hi, ch, xy, ground, z, series, options,
         a, b = int(seg0[m]), int(seg0[m] + cnt[m])
         pt = (lambda k: xy[base + k + a] if take is None else xy[take[k + a]])
         cc = c[a:b]
+        found = []          # (kind, sample, problem, fix, summary, the reach's warning)
         if deep_any[m]:
             k = int(np.argmax(depth[a:b]))
-            violations.append(_violation(
-                "too deep", rid, cc[k], pt(k),
+            found.append((
+                "too deep", k,
                 f"{depth[a + k]:.2f} m deep, more than the maximum {options.max_depth:.2f} m",
                 "lay a sub-main or second outlet closer to this part, accept a deeper "
-                "trench, or reduce the minimum grade", ))
-            violations[-1]["summary"] = (f"deeper than the maximum depth "
-                                         f"{options.max_depth:.2f} m")
-            row["warnings"].append("deeper than the maximum depth")
+                "trench, or reduce the minimum grade",
+                f"deeper than the maximum depth {options.max_depth:.2f} m",
+                "deeper than the maximum depth"))
         if low_cover[m]:
             k = int(np.argmin(cover[a:b]))
-            violations.append(_violation(
-                "shallow cover", rid, cc[k], pt(k),
+            found.append((
+                "shallow cover", k,
                 f"cover {cover[a + k]:.2f} m is less than {options.min_cover:.2f} m",
                 "the outlet or a joining pipe holds it up: lower the outlet, or protect the "
-                "pipe (rigid pipe, no heavy traffic)"))
-            violations[-1]["summary"] = f"cover less than {options.min_cover:.2f} m"
-            row["warnings"].append("shallow cover")
+                "pipe (rigid pipe, no heavy traffic)",
+                f"cover less than {options.min_cover:.2f} m", "shallow cover"))
         if steep_any[m]:
             k = int(np.argmax(seg[a:b - 1]))
-            violations.append(_violation(
-                "steep", rid, cc[k], pt(k),
+            found.append((
+                "steep", k,
                 f"grade {seg[a + k]:.2%} exceeds the maximum {options.max_grade:.2%}",
-                "put a drop structure here, or lay the pipe deeper upstream"))
-            violations[-1]["summary"] = f"grade above the maximum {options.max_grade:.2%}"
-            row["warnings"].append("steeper than the maximum grade")
-
+                "put a drop structure here, or lay the pipe deeper upstream",
+                f"grade above the maximum {options.max_grade:.2%}",
+                "steeper than the maximum grade"))
+        for kind, k, problem, fix, summary, warning in found:
+            violations.append(_violation(kind, rid, cc[k], pt(k), problem, fix))
+            violations[-1]["summary"] = summary
+            row["warnings"].append(warning)
 
 def _high_side(runs, ground, start, last, length, violations):
     """Fields whose laterals mostly rise towards their main: the main is on the high
